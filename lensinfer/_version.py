@@ -1,0 +1,3 @@
+"""Version of lensinfer (single source, read by hatchling)."""
+
+__version__ = "0.1.0.dev0"
