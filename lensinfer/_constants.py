@@ -14,9 +14,7 @@ import astropy.units as _u
 C_KMS: float = float(_const.c.to_value(_u.km / _u.s))
 
 #: Newton's constant in kpc (km/s)^2 / Msun.
-G_KPC_KMS2_PER_MSUN: float = float(
-    _const.G.to_value(_u.kpc * _u.km**2 / _u.s**2 / _u.Msun)
-)
+G_KPC_KMS2_PER_MSUN: float = float(_const.G.to_value(_u.kpc * _u.km**2 / _u.s**2 / _u.Msun))
 
 #: c^2 / (4 pi G) in Msun / kpc, the prefactor of the critical surface density.
 SIGMA_CRIT_PREFACTOR_MSUN_PER_KPC: float = C_KMS**2 / (4.0 * math.pi * G_KPC_KMS2_PER_MSUN)

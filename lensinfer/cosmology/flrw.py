@@ -111,7 +111,9 @@ class Cosmology:
         massive = np.zeros(3)
         if m_nu is not None and cosmo.has_massive_nu:
             tnu0 = cosmo.Tnu0
-            y = (m_nu.to(u.eV, u.mass_energy()) / (const.k_B * tnu0)).to_value(u.dimensionless_unscaled)
+            y = (m_nu.to(u.eV, u.mass_energy()) / (const.k_B * tnu0)).to_value(
+                u.dimensionless_unscaled
+            )
             y = np.atleast_1d(y)
             nu_y[: y.size] = y
             massive[: y.size] = (y > 0).astype(float)
@@ -147,10 +149,10 @@ class Cosmology:
         :math:`y = m_\nu c^2/(k_B T_{\nu}) / (1+z)`, p = 1.83, k = 0.3173.
         """
         z = jnp.asarray(z, dtype=jnp.float64)
-        y = self.nu_y / (1.0 + z)[..., None]
-        rel = jnp.where(
-            self.massive > 0, (1.0 + (_NU_K * y) ** _NU_P) ** (1.0 / _NU_P), 1.0
-        )
+        # Massless species (y = 0) are given a safe y = 1 before the power, so
+        # derivatives of every order stay finite (0^0.83 has no second derivative).
+        y = jnp.where(self.massive > 0, self.nu_y, 1.0) / (1.0 + z)[..., None]
+        rel = jnp.where(self.massive > 0, (1.0 + (_NU_K * y) ** _NU_P) ** (1.0 / _NU_P), 1.0)
         return _NU_PREFACTOR * self.neff_per_nu * jnp.sum(rel, axis=-1)
 
     def efunc(self, z):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import functools
+import math
 from collections.abc import Callable
 
 import jax
@@ -69,3 +70,8 @@ def newton_root(
     u_star = jax.lax.stop_gradient(jax.lax.fori_loop(0, n_steps, step, u0))
     r, slope = value_and_slope(u_star, params)
     return u_star - r / jax.lax.stop_gradient(slope)
+
+
+def normal_logpdf(x, mean, sigma):
+    """Log density of a normal distribution (x, mean, sigma broadcast)."""
+    return -0.5 * ((x - mean) / sigma) ** 2 - jnp.log(sigma * math.sqrt(2.0 * math.pi))

@@ -66,9 +66,7 @@ def einstein_radius_kpc(components, sigma_crit):
     _, _, u = jax.lax.fori_loop(0, N_ITER, step, (lo, hi, u0))
     u = jax.lax.stop_gradient(u)
     # Differentiable final step (value unchanged at convergence).
-    val, slope = jax.jvp(
-        lambda v: _log_kbar(profile, v, sigma_crit), (u,), (jnp.ones_like(u),)
-    )
+    val, slope = jax.jvp(lambda v: _log_kbar(profile, v, sigma_crit), (u,), (jnp.ones_like(u),))
     u_star = u - val / jax.lax.stop_gradient(slope)
     # The derivative of u_star with respect to parameters is -dg/dp / slope: exact.
     r_e = jnp.exp(u_star)

@@ -30,7 +30,15 @@ def polyval_ascending(coeffs, d):
 
 
 # Taylor coefficients of F(x) about x = 1 (from sympy, verified in the tests).
-_F_SERIES = (1.0, -2.0 / 3.0, 7.0 / 15.0, -12.0 / 35.0, 83.0 / 315.0, -146.0 / 693.0, 523.0 / 3003.0)
+_F_SERIES = (
+    1.0,
+    -2.0 / 3.0,
+    7.0 / 15.0,
+    -12.0 / 35.0,
+    83.0 / 315.0,
+    -146.0 / 693.0,
+    523.0 / 3003.0,
+)
 
 
 def arccosh_ratio(x):

@@ -56,8 +56,8 @@ class PowerLaw(SphericalProfile):
     def enclosed_mass(self, r):
         g = self.slope
         r = as_float(r)
-        return 4.0 * jnp.pi * self.rho_ref * self.r_ref**3 * (r / self.r_ref) ** (3.0 - g) / (
-            3.0 - g
+        return (
+            4.0 * jnp.pi * self.rho_ref * self.r_ref**3 * (r / self.r_ref) ** (3.0 - g) / (3.0 - g)
         )
 
     def _los_factor(self):
@@ -66,7 +66,9 @@ class PowerLaw(SphericalProfile):
 
     def surface_density(self, R):
         R = as_float(R)
-        return self._los_factor() * self.rho_ref * self.r_ref * (R / self.r_ref) ** (1.0 - self.slope)
+        return (
+            self._los_factor() * self.rho_ref * self.r_ref * (R / self.r_ref) ** (1.0 - self.slope)
+        )
 
     def projected_mass(self, R):
         R = as_float(R)

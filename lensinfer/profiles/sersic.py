@@ -125,9 +125,11 @@ class Sersic(SphericalProfile):
 
     def _sigma_e(self, b):
         n = self.n
-        return self.mass * jnp.exp(
-            2.0 * n * jnp.log(b) - b - gammaln(2.0 * n) - jnp.log(2.0 * jnp.pi * n)
-        ) / self.r_eff**2
+        return (
+            self.mass
+            * jnp.exp(2.0 * n * jnp.log(b) - b - gammaln(2.0 * n) - jnp.log(2.0 * jnp.pi * n))
+            / self.r_eff**2
+        )
 
     def _sigma_and_slope(self, R, b):
         """Sigma(R) and dSigma/dR (analytic)."""
