@@ -1,0 +1,50 @@
+"""Cubic splines on a fixed uniform grid, with a precomputed system matrix.
+
+The knots are uniform in u with spacing h, so the not-a-knot cubic-spline
+system that gives the knot second derivatives has a constant matrix; its
+inverse times the second-difference operator is computed once (numpy) and a
+spline fit in jitted code is a single matrix–vector product (differentiable,
+no loops).  Evaluation needs no search: the interval index is
+floor((u - u_0) / h).
+"""
+
+import jax.numpy as jnp
+import numpy as np
+
+__all__: list[str] = []
+
+
+def second_derivative_operator(n: int, h: float) -> np.ndarray:
+    """Matrix S with M = S y: knot second derivatives of the not-a-knot spline.
+
+    Interior rows: M_{k-1} + 4 M_k + M_{k+1} = 6 (y_{k-1} - 2 y_k + y_{k+1}) / h^2
+    (de Boor 2001, "A Practical Guide to Splines", ch. IV).  End rows: the
+    third derivative is continuous at the second and the penultimate knots,
+    M_0 - 2 M_1 + M_2 = 0 and M_{n-3} - 2 M_{n-2} + M_{n-1} = 0.
+    """
+    a = np.zeros((n, n))
+    b = np.zeros((n, n))
+    for k in range(1, n - 1):
+        a[k, k - 1 : k + 2] = (1.0, 4.0, 1.0)
+        b[k, k - 1 : k + 2] = np.array([1.0, -2.0, 1.0]) * 6.0 / h**2
+    a[0, 0:3] = (1.0, -2.0, 1.0)
+    a[-1, -3:] = (1.0, -2.0, 1.0)
+    return np.linalg.solve(a, b)
+
+
+def evaluate(u, u0, h, y, m):
+    """Spline value and derivative dy/du at u (clamped to the grid's intervals).
+
+    Outside the grid the end cubic is continued; callers that extrapolate
+    further use the returned end values and slopes instead.
+    """
+    n = y.shape[-1]
+    s = (u - u0) / h
+    k = jnp.clip(jnp.floor(s), 0, n - 2).astype(jnp.int32)
+    t = s - k
+    y0, y1 = y[k], y[k + 1]
+    m0, m1 = m[k], m[k + 1]
+    omt = 1.0 - t
+    val = omt * y0 + t * y1 + h**2 / 6.0 * ((omt**3 - omt) * m0 + (t**3 - t) * m1)
+    der = (y1 - y0) / h + h / 6.0 * (-(3.0 * omt**2 - 1.0) * m0 + (3.0 * t**2 - 1.0) * m1)
+    return val, der

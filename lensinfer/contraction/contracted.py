@@ -1,0 +1,289 @@
+"""The dark matter of a halo after the galaxy has formed: the response solve."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import jax
+import jax.numpy as jnp
+import numpy as np
+
+from lensinfer.contraction import _spline
+from lensinfer.contraction._radius import overdensity_radius
+from lensinfer.contraction.prescriptions import resolve_prescription
+from lensinfer.profiles.base import SphericalProfile, as_float, as_profile
+
+__all__ = ["ContractedHalo", "ScaledProfile", "contract_halo"]
+
+#: The response grid: final radii from GRID_LO to GRID_HI times r200c, uniform
+#: in ln r.  0.01–10 R_eff of a massive lens lies at ~1e-4–0.1 r200c, deep
+#: inside; the test ``test_grid_convergence`` shows that widening the grid or
+#: doubling its density changes the masses by < 1e-6.
+GRID_LO = 1.0e-6
+GRID_HI = 10.0
+GRID_N = 96
+_GRID_H = float(np.log(GRID_HI / GRID_LO) / (GRID_N - 1))
+_GRID_X = jnp.asarray(np.log(GRID_LO) + _GRID_H * np.arange(GRID_N))
+_SPLINE_S = jnp.asarray(_spline.second_derivative_operator(GRID_N, _GRID_H))
+
+#: Newton iterations (gradient-stopped) of the per-shell solve before the
+#: differentiable implicit step; converges to machine precision for the
+#: documented parameter range (tested on random draws of a broad box).
+N_NEWTON = 12
+
+#: Gauss–Legendre nodes of the projection M_2D(R) = int_0^inf M(R cosh t) sech^2 t dt.
+_N_PROJ = 128
+_PX, _PW = (jnp.asarray(a) for a in np.polynomial.legendre.leggauss(_N_PROJ))
+
+
+@jax.tree_util.register_dataclass
+@dataclasses.dataclass(frozen=True)
+class ScaledProfile(SphericalProfile):
+    """A profile times a constant factor (the unresponsive halo's dark matter)."""
+
+    profile: SphericalProfile
+    factor: jax.Array
+
+    def density(self, r):
+        return self.factor * self.profile.density(r)
+
+    def enclosed_mass(self, r):
+        return self.factor * self.profile.enclosed_mass(r)
+
+    def surface_density(self, R):
+        return self.factor * self.profile.surface_density(R)
+
+    def projected_mass(self, R):
+        return self.factor * self.profile.projected_mass(R)
+
+
+def _orbit_radius(r, r200, a, w):
+    """rbar = A r200 (r / r200)^w, or r itself when A is None."""
+    if a is None:
+        return r
+    return a * r200 * (r / r200) ** w
+
+
+def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
+    r"""ln r_i for each final radius r_f (vectorised over the grid).
+
+    Solves :math:`F(x) = \ln r_f - x - \nu[\ln M_i(\bar r_i)
+    - \ln(M_{gal}(\bar r_f) + (1 - f)M_i(\bar r_i))] = 0`, x = ln r_i, which
+    is strictly decreasing in x for nu > -1/2 (so the root is unique).
+    """
+
+    def resid(x, halo, m_gal_f, f_gal, nu, r200):
+        m_i = halo.enclosed_mass(_orbit_radius(jnp.exp(x), r200, a, w))
+        return jnp.log(r_f) - x - nu * (jnp.log(m_i) - jnp.log(m_gal_f + (1.0 - f_gal) * m_i))
+
+    args = (halo, m_gal_f, f_gal, nu, r200)
+    args_sg = jax.lax.stop_gradient(args)
+
+    def dresid(x, args):
+        return jax.jvp(lambda v: resid(v, *args), (x,), (jnp.ones_like(x),))
+
+    # Start from r_i = r_f (M_f / M_i)^nu with both masses taken at r_f.
+    m_i0 = args_sg[0].enclosed_mass(_orbit_radius(r_f, args_sg[4], a, w))
+    x = jnp.log(r_f) + args_sg[3] * (
+        jnp.log(args_sg[1] + (1.0 - args_sg[2]) * m_i0) - jnp.log(m_i0)
+    )
+    x = jax.lax.stop_gradient(x)
+
+    def body(_, x):
+        val, slope = dresid(x, args_sg)
+        return x - jnp.clip(val / slope, -3.0, 3.0)
+
+    x = jax.lax.fori_loop(0, N_NEWTON, body, x)
+    x = jax.lax.stop_gradient(x)
+    val, slope = dresid(x, args)
+    return x - val / jax.lax.stop_gradient(slope)
+
+
+@jax.tree_util.register_dataclass
+@dataclasses.dataclass(frozen=True)
+class ContractedHalo(SphericalProfile):
+    r"""Dark matter after the halo's response to the galaxy (a spherical profile).
+
+    Built by :func:`contract_halo`; holds the final enclosed dark-matter mass
+    on a grid of final radii (uniform in ln r from 1e-6 to 10 r200c, 96 knots)
+    as a not-a-knot cubic spline of ln M in ln r.
+
+    - ``enclosed_mass(r)``: the spline; below the grid a power law with the
+      end slope, above it the unresponsive halo (1 - f) M_i(r) scaled to match.
+    - ``density(r)``: :math:`\rho = \frac{M}{4\pi r^3}\frac{d\ln M}{d\ln r}` from the
+      spline derivative.
+    - ``projected_mass(R)``: :math:`M_{2D}(<R) = \int_0^\infty M(R\cosh t)\,
+      {\rm sech}^2 t\, dt` (the 3-D mass integrated against the fraction of
+      each shell inside the cylinder, after an integration by parts; no
+      density needed), 128 Gauss–Legendre nodes out to 1e3 r200c plus the
+      analytic tail M (1 - tanh T).
+    - ``surface_density(R)``: :math:`\frac{1}{2\pi R}\frac{dM_{2D}}{dR}`.
+    """
+
+    log_r0: jax.Array
+    log_mass: jax.Array
+    log_mass_d2: jax.Array
+    halo: SphericalProfile
+    remaining_fraction: jax.Array
+    outer_ratio: jax.Array
+
+    def _log_enclosed(self, u):
+        """ln M(<e^u) and d ln M / d ln r."""
+        u_lo = self.log_r0
+        u_hi = self.log_r0 + _GRID_H * (GRID_N - 1)
+        uc = jnp.clip(u, u_lo, u_hi)
+        val, der = _spline.evaluate(uc, u_lo, _GRID_H, self.log_mass, self.log_mass_d2)
+        # Inner: power law with the end slope.
+        inner_val = val + der * (u - uc)
+        # Outer: the unresponsive halo, scaled to join at the last knot.
+        u_out = jnp.maximum(u, u_hi)
+        outer_mass = self.outer_ratio * self.remaining_fraction * self.halo.enclosed_mass(
+            jnp.exp(u_out)
+        )
+        outer_val = jnp.log(outer_mass)
+        outer_der = jax.jvp(
+            lambda v: jnp.log(self.halo.enclosed_mass(jnp.exp(v))), (u_out,), (jnp.ones_like(u),)
+        )[1]
+        val = jnp.where(u > u_hi, outer_val, jnp.where(u < u_lo, inner_val, val))
+        der = jnp.where(u > u_hi, outer_der, der)
+        return val, der
+
+    def enclosed_mass(self, r):
+        return jnp.exp(self._log_enclosed(jnp.log(as_float(r)))[0])
+
+    def density(self, r):
+        r = as_float(r)
+        val, der = self._log_enclosed(jnp.log(r))
+        return jnp.exp(val) * der / (4.0 * jnp.pi * r**3)
+
+    def projected_mass(self, R):
+        R = as_float(R)
+        r_far = 1.0e3 * GRID_HI / GRID_LO * jnp.exp(self.log_r0)  # 1e3 r200c
+        t_max = jnp.arccosh(jnp.maximum(r_far / R, 2.0))
+        t = 0.5 * t_max[..., None] * (_PX + 1.0)
+        w = 0.5 * t_max[..., None] * _PW
+        m = self.enclosed_mass(R[..., None] * jnp.cosh(t))
+        body = jnp.sum(w * m / jnp.cosh(t) ** 2, axis=-1)
+        tail = self.enclosed_mass(R * jnp.cosh(t_max)) * (1.0 - jnp.tanh(t_max))
+        return body + tail
+
+    def surface_density(self, R):
+        R = as_float(R)
+        dm = jax.jvp(self.projected_mass, (R,), (jnp.ones_like(R),))[1]
+        return dm / (2.0 * jnp.pi * R)
+
+
+def contract_halo(
+    halo,
+    galaxy,
+    prescription,
+    galaxy_fraction=None,
+    *,
+    r200c=None,
+    z=None,
+    cosmology=None,
+    response_index=None,
+    orbit_scale=None,
+    orbit_exponent=None,
+):
+    r"""The dark matter of ``halo`` after the galaxy has formed inside it.
+
+    The initial (dark-matter-only) total mass profile is the halo's,
+    :math:`M_i(r)`.  A fraction :math:`f = M_{gal}/M_{200c}` of it ends in the
+    galaxy, the rest keeps following the dark matter, and each shell moves
+    from :math:`r_i` to :math:`r_f` such that
+
+    .. math::
+
+        \frac{r_f}{r_i} = \left[\frac{M_i(\bar r_i)}
+            {M_{gal}(\bar r_f) + (1 - f)\,M_i(\bar r_i)}\right]^{\nu},
+        \qquad M_{DM}(<r_f) = (1 - f)\,M_i(<r_i),
+
+    which for nu = 1 is the adiabatic invariant :math:`r M(\bar r) = {\rm const}`.
+
+    ====================  ==========================  =====================
+    prescription          orbit-averaged radius rbar  nu
+    ====================  ==========================  =====================
+    ``"none"``            —                           0 (halo × (1 − f))
+    ``"blumenthal86"``    r                           1
+    ``"gnedin04"``        0.85 r200 (r/r200)^0.8      1
+    ``"gnedin11"``        1.6 r200 (r/r200)^0.8       1
+    ``"orbit_averaged"``  A r200 (r/r200)^w           1
+    ``"power"``           r                           ``response_index``
+    ====================  ==========================  =====================
+
+    For the Gnedin forms the dark-matter mass inside the orbit-averaged radius
+    is taken as conserved, :math:`M_{DM,f}(\bar r_f) = (1 - f)M_i(\bar r_i)`
+    (Gnedin et al. 2004, eq. 2 and section 3).  nu = 0 is no response, nu = 1
+    is Blumenthal et al. (1986), nu < 0 expands the halo (Dutton et al. 2007,
+    section 2.3); nu must exceed -1/2 for the shells not to cross where the
+    galaxy dominates.  The response is applied at all radii; beyond r200c,
+    where the enclosed initial mass exceeds M200c, it is a slight expansion.
+
+    Parameters
+    ----------
+    halo : NFW or GeneralizedNFW (any SphericalProfile)
+        The dark-matter-only halo; its mass inside r200c is M200c.
+    galaxy : profile, Composite or list of profiles
+        The final baryonic galaxy (Sérsic stars, a gas disk as a sphere, a
+        central point mass, ...).
+    prescription : str
+        One of the names above.
+    galaxy_fraction : float, optional
+        f = M_gal / M200c; defaults to galaxy.enclosed_mass(r200c) / M200c
+        (the galaxy's mass inside r200c, i.e. its total for any compact galaxy).
+    r200c : float, optional
+        r200c of the halo in kpc.  If omitted, ``z`` and ``cosmology`` are
+        needed and r200c is solved from the halo's profile.
+    z, cosmology : float, Cosmology
+        The halo's redshift and the cosmology (only when r200c is omitted).
+    response_index : float
+        nu, for ``"power"`` (traceable: NUTS can sample it).
+    orbit_scale, orbit_exponent : float
+        A and w, for ``"orbit_averaged"``.
+
+    Returns
+    -------
+    SphericalProfile
+        A :class:`ScaledProfile` for ``"none"``, else a :class:`ContractedHalo`;
+        both have density, enclosed_mass, surface_density and projected_mass
+        in kpc and Msun.
+
+    References
+    ----------
+    Blumenthal G. R., Faber S. M., Flores R., Primack J. R., 1986, ApJ 301, 27.
+    Gnedin O. Y., Kravtsov A. V., Klypin A. A., Nagai D., 2004, ApJ 616, 16.
+    Gnedin O. Y. et al., 2011, arXiv:1108.5736 (A = 1.6, w = 0.8; from memory).
+    Dutton A. A., van den Bosch F. C., Dekel A., Courteau S., 2007, ApJ 654, 27.
+    """
+    a, w, nu = resolve_prescription(prescription, orbit_scale, orbit_exponent, response_index)
+    galaxy = as_profile(galaxy)
+    if r200c is None:
+        if z is None or cosmology is None:
+            raise ValueError("contract_halo needs r200c, or both z and cosmology to solve for it")
+        threshold = 200.0 * cosmology.critical_density(z)
+        r200c = overdensity_radius(halo, threshold, 300.0)
+    r200c = as_float(r200c)
+    m200c = halo.enclosed_mass(r200c)
+    if galaxy_fraction is None:
+        galaxy_fraction = galaxy.enclosed_mass(r200c) / m200c
+    f_gal = as_float(galaxy_fraction)
+    if prescription == "none":
+        return ScaledProfile(halo, 1.0 - f_gal)
+
+    nu = as_float(nu)
+    log_r0 = jnp.log(r200c) + _GRID_X[0]
+    r_f = jnp.exp(jnp.log(r200c) + _GRID_X)
+    m_gal_f = galaxy.enclosed_mass(_orbit_radius(r_f, r200c, a, w))
+    x_i = _solve_initial_radii(r_f, m_gal_f, halo, r200c, f_gal, a, w, nu)
+    log_m = jnp.log(1.0 - f_gal) + jnp.log(halo.enclosed_mass(jnp.exp(x_i)))
+    d2 = _SPLINE_S @ log_m
+    outer_ratio = jnp.exp(log_m[-1]) / ((1.0 - f_gal) * halo.enclosed_mass(r_f[-1]))
+    return ContractedHalo(
+        log_r0=log_r0,
+        log_mass=log_m,
+        log_mass_d2=d2,
+        halo=halo,
+        remaining_fraction=1.0 - f_gal,
+        outer_ratio=outer_ratio,
+    )
