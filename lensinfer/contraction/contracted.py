@@ -8,7 +8,7 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 
-from lensinfer.contraction import _spline
+from lensinfer import _spline
 from lensinfer.contraction._radius import overdensity_radius
 from lensinfer.contraction.prescriptions import resolve_prescription
 from lensinfer.profiles.base import SphericalProfile, as_float, as_profile
@@ -27,9 +27,11 @@ _GRID_X = jnp.asarray(np.log(GRID_LO) + _GRID_H * np.arange(GRID_N))
 _SPLINE_S = jnp.asarray(_spline.second_derivative_operator(GRID_N, _GRID_H))
 
 #: Newton iterations (gradient-stopped) of the per-shell solve before the
-#: differentiable implicit step; converges to machine precision for the
-#: documented parameter range (tested on random draws of a broad box).
-N_NEWTON = 12
+#: differentiable implicit step.  From the power-law initial guess, 4 steps
+#: reach |F| < 1e-12 on random draws of a broad box (12 < log10 M200c < 14.5,
+#: 2 < c < 20, 10.5 < log10 M* < 12, -0.45 < nu < 2, all prescriptions); 6
+#: leave a margin, and a test checks the residual on such draws.
+N_NEWTON = 6
 
 #: Gauss–Legendre nodes of the projection M_2D(R) = int_0^inf M(R cosh t) sech^2 t dt.
 _N_PROJ = 128
@@ -61,39 +63,59 @@ def _orbit_radius(r, r200, a, w):
     """rbar = A r200 (r / r200)^w, or r itself when A is None."""
     if a is None:
         return r
-    return a * r200 * (r / r200) ** w
+    return a * r200 * jnp.exp(w * jnp.log(r / r200))
+
+
+def _orbit_radius_from_log(x, log_r200, a, w):
+    """rbar for r = exp(x), with a single exp (no pow: pow costs ~5 exps on CPU)."""
+    if a is None:
+        return jnp.exp(x)
+    return jnp.exp(jnp.log(a) + log_r200 + w * (x - log_r200))
 
 
 def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
     r"""ln r_i for each final radius r_f (vectorised over the grid).
 
-    Solves :math:`F(x) = \ln r_f - x - \nu[\ln M_i(\bar r_i)
-    - \ln(M_{gal}(\bar r_f) + (1 - f)M_i(\bar r_i))] = 0`, x = ln r_i, which
-    is strictly decreasing in x for nu > -1/2 (so the root is unique).
+    Solves, for x = ln r_i,
+
+    .. math::
+
+        F(x) = \ln r_f - x + \nu \ln\left[\frac{M_{gal}(\bar r_f)}{M_i(\bar r_i)}
+               + 1 - f\right] = 0,
+
+    which is strictly decreasing in x for nu > -1/2 (unique root).  Newton
+    steps run on gradient-stopped inputs, then one Newton step on the live
+    inputs gives the exact implicit derivative with respect to every halo,
+    galaxy and response parameter.
     """
+    log_r_f = jnp.log(r_f)
 
-    def resid(x, halo, m_gal_f, f_gal, nu, r200):
-        m_i = halo.enclosed_mass(_orbit_radius(jnp.exp(x), r200, a, w))
-        return jnp.log(r_f) - x - nu * (jnp.log(m_i) - jnp.log(m_gal_f + (1.0 - f_gal) * m_i))
+    def resid(x, halo, m_gal_f, f_gal, nu, log_r200):
+        m_i = halo.enclosed_mass(_orbit_radius_from_log(x, log_r200, a, w))
+        return log_r_f - x + nu * jnp.log(m_gal_f / m_i + 1.0 - f_gal)
 
-    args = (halo, m_gal_f, f_gal, nu, r200)
+    args = (halo, m_gal_f, f_gal, nu, jnp.log(r200))
     args_sg = jax.lax.stop_gradient(args)
 
     def dresid(x, args):
         return jax.jvp(lambda v: resid(v, *args), (x,), (jnp.ones_like(x),))
 
-    # Start from r_i = r_f (M_f / M_i)^nu with both masses taken at r_f.
-    m_i0 = args_sg[0].enclosed_mass(_orbit_radius(r_f, args_sg[4], a, w))
-    x = jnp.log(r_f) + args_sg[3] * (
-        jnp.log(args_sg[1] + (1.0 - args_sg[2]) * m_i0) - jnp.log(m_i0)
-    )
+    # Start from r_i = r_f (M_f / M_i)^nu with M_i a local power law of slope
+    # s = dlnM_i/dlnr at r_f: x0 = ln r_f + nu ln(M_f / M_i(r_f)) / (1 + nu s).
+    # From there Newton reaches |F| < 1e-12 in 4 steps over the tested box.
+    halo_sg, m_gal_sg, f_sg, nu_sg, log_r200_sg = args_sg
+
+    def log_m_i(v):
+        return jnp.log(halo_sg.enclosed_mass(_orbit_radius_from_log(v, log_r200_sg, a, w)))
+
+    lm_i0, s0 = jax.jvp(log_m_i, (log_r_f,), (jnp.ones_like(r_f),))
+    x = log_r_f + nu_sg * jnp.log(m_gal_sg / jnp.exp(lm_i0) + 1.0 - f_sg) / (1.0 + nu_sg * s0)
     x = jax.lax.stop_gradient(x)
 
-    def body(_, x):
+    # Unrolled (a Python loop): XLA fuses the iterations, ~5x faster than fori_loop.
+    for _ in range(N_NEWTON):
         val, slope = dresid(x, args_sg)
-        return x - jnp.clip(val / slope, -3.0, 3.0)
-
-    x = jax.lax.fori_loop(0, N_NEWTON, body, x)
+        x = x - jnp.clip(val / slope, -3.0, 3.0)
     x = jax.lax.stop_gradient(x)
     val, slope = dresid(x, args)
     return x - val / jax.lax.stop_gradient(slope)

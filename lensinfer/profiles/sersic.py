@@ -7,6 +7,7 @@ import jax.numpy as jnp
 import numpy as np
 from jax.scipy.special import gammainc, gammaln
 
+from lensinfer.profiles import _sersic_table
 from lensinfer.profiles._units import KPC, MSUN, to_internal
 from lensinfer.profiles.base import SphericalProfile, as_float
 
@@ -104,13 +105,25 @@ class Sersic(SphericalProfile):
         Projected half-mass radius, kpc.
     n : float
         Sérsic index (0.5 <= n <= 10 is the validated range).
+    deprojection : {"table", "quadrature"}
+        How the 3-D density and enclosed mass are evaluated: ``"table"``
+        (default) interpolates a table of the quadrature computed once per
+        process (:mod:`lensinfer.profiles._sersic_table`; relative error below
+        1e-7 in mass and 1e-6 in density, ~50x faster, n within
+        [0.45, 10.05], NaN outside); ``"quadrature"`` evaluates the
+        deprojection integrals directly.  Projected quantities are exact either way.
     """
 
     mass: jax.Array
     r_eff: jax.Array
     n: jax.Array
+    deprojection: str = dataclasses.field(default="table", metadata=dict(static=True))
 
     def __post_init__(self):
+        if self.deprojection not in ("table", "quadrature"):
+            raise ValueError(
+                f"Sersic deprojection must be 'table' or 'quadrature', not {self.deprojection!r}"
+            )
         object.__setattr__(self, "mass", to_internal(self.mass, MSUN))
         object.__setattr__(self, "r_eff", to_internal(self.r_eff, KPC))
 
@@ -159,13 +172,35 @@ class Sersic(SphericalProfile):
 
     def density(self, r):
         r = as_float(r)
+        if self.deprojection == "table":
+            log_nu = _sersic_table.log_profile(r / self.r_eff, self.n, self.b)[..., 1]
+            return self.mass / self.r_eff**3 * jnp.exp(log_nu)
+        return jnp.exp(self.log_density_quadrature(r))
+
+    def log_density_quadrature(self, r):
+        r"""ln rho(r) by direct Abel quadrature, without underflow at large r.
+
+        The factor :math:`\exp[-b_n (q_r - 1)]`, :math:`q_r = (r/R_{\rm eff})^{1/n}`,
+        is taken out of the integral analytically, so ln rho stays finite where
+        rho itself underflows (r >> R_eff for small n).
+        """
+        r = as_float(r)
         b = self.b
+        n = self.n
         t, w = self._t_nodes(r, b)
-        _, slope = self._sigma_and_slope(r[..., None] * jnp.cosh(t), b)
-        return -jnp.sum(w * slope, axis=-1) / jnp.pi
+        q_r = (r / self.r_eff) ** (1.0 / n)
+        q = q_r[..., None] * jnp.cosh(t) ** (1.0 / n)
+        R = r[..., None] * jnp.cosh(t)
+        # -dSigma/dR = Sigma_e exp(-b (q - 1)) b q / (n R); factor exp(-b (q_r - 1)) out.
+        integrand = jnp.exp(-b * (q - q_r[..., None])) * b * q / (n * R)
+        log_int = jnp.log(jnp.sum(w * integrand, axis=-1))
+        return jnp.log(self._sigma_e(b) / jnp.pi) - b * (q_r - 1.0) + log_int
 
     def enclosed_mass(self, r):
         r = as_float(r)
+        if self.deprojection == "table":
+            log_mu = _sersic_table.log_profile(r / self.r_eff, self.n, self.b)[..., 0]
+            return self.mass * jnp.exp(log_mu)
         b = self.b
         t, w = self._t_nodes(r, b)
         ch, sh = jnp.cosh(t), jnp.sinh(t)
