@@ -8,13 +8,59 @@ masses lose accuracy in float32.  Sub-packages:
 - :mod:`lensinfer.cosmology` — distances and critical densities in JAX;
 - :mod:`lensinfer.profiles` — spherical mass and light profiles;
 - :mod:`lensinfer.lensing` — critical surface density, convergence, deflection,
-  Einstein radius.
+  Einstein radius;
+- :mod:`lensinfer.stellar`, :mod:`lensinfer.halo` — IMFs, halo relations;
+- :mod:`lensinfer.contraction` — the halo's response to the galaxy;
+- :mod:`lensinfer.spec`, :mod:`lensinfer.model`, :mod:`lensinfer.inference` —
+  declarative files, numpyro models, NUTS and results files.
+
+It also asks JAX for one CPU device per core (at least 4) through XLA_FLAGS,
+unless XLA_FLAGS already sets a device count, so chains can run in parallel.
 """
 
-import jax as _jax
+import os as _os
+
+# One JAX CPU device per core (and at least 4) so NUTS chains can run in
+# parallel.  This only takes effect if JAX has not started yet, and never
+# overrides a device count the user has set in XLA_FLAGS.
+if "xla_force_host_platform_device_count" not in _os.environ.get("XLA_FLAGS", ""):
+    _os.environ["XLA_FLAGS"] = (
+        _os.environ.get("XLA_FLAGS", "")
+        + f" --xla_force_host_platform_device_count={max(_os.cpu_count() or 1, 4)}"
+    ).strip()
+
+import jax as _jax  # noqa: E402
 
 _jax.config.update("jax_enable_x64", True)
 
 from lensinfer._version import __version__  # noqa: E402
 
-__all__ = ["__version__"]
+__all__ = [
+    "__version__",
+    "build_model",
+    "read_model",
+    "read_observation",
+    "read_results",
+    "sample",
+    "summarize",
+    "write_results",
+]
+
+_LAZY = {
+    "sample": "lensinfer.inference",
+    "read_results": "lensinfer.inference",
+    "write_results": "lensinfer.inference",
+    "summarize": "lensinfer.inference",
+    "read_model": "lensinfer.spec",
+    "read_observation": "lensinfer.spec",
+    "build_model": "lensinfer.model",
+}
+
+
+def __getattr__(name):
+    # Heavy modules (numpyro, arviz) load only when their names are used.
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'lensinfer' has no attribute {name!r}")

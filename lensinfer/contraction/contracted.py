@@ -23,8 +23,9 @@ GRID_LO = 1.0e-6
 GRID_HI = 10.0
 GRID_N = 96
 _GRID_H = float(np.log(GRID_HI / GRID_LO) / (GRID_N - 1))
-_GRID_X = jnp.asarray(np.log(GRID_LO) + _GRID_H * np.arange(GRID_N))
-_SPLINE_S = jnp.asarray(_spline.second_derivative_operator(GRID_N, _GRID_H))
+# numpy module constants (a jnp array made during a trace would leak it).
+_GRID_X = np.log(GRID_LO) + _GRID_H * np.arange(GRID_N)
+_SPLINE_S = _spline.second_derivative_operator(GRID_N, _GRID_H)
 
 #: Newton iterations (gradient-stopped) of the per-shell solve before the
 #: differentiable implicit step.  From the power-law initial guess, 4 steps
@@ -35,7 +36,7 @@ N_NEWTON = 6
 
 #: Gauss–Legendre nodes of the projection M_2D(R) = int_0^inf M(R cosh t) sech^2 t dt.
 _N_PROJ = 128
-_PX, _PW = (jnp.asarray(a) for a in np.polynomial.legendre.leggauss(_N_PROJ))
+_PX, _PW = np.polynomial.legendre.leggauss(_N_PROJ)
 
 
 @jax.tree_util.register_dataclass
@@ -299,7 +300,7 @@ def contract_halo(
     m_gal_f = galaxy.enclosed_mass(_orbit_radius(r_f, r200c, a, w))
     x_i = _solve_initial_radii(r_f, m_gal_f, halo, r200c, f_gal, a, w, nu)
     log_m = jnp.log(1.0 - f_gal) + jnp.log(halo.enclosed_mass(jnp.exp(x_i)))
-    d2 = _SPLINE_S @ log_m
+    d2 = jnp.dot(_SPLINE_S, log_m)
     outer_ratio = jnp.exp(log_m[-1]) / ((1.0 - f_gal) * halo.enclosed_mass(r_f[-1]))
     return ContractedHalo(
         log_r0=log_r0,

@@ -17,7 +17,7 @@ __all__ = ["Cosmology"]
 # 1/E(z) is analytic and slowly varying in ln(1 + z); 64 nodes in ln(1+z) give a
 # relative error below 1e-12 for 0 <= z <= 1100 (checked against astropy in tests).
 _N_GL = 64
-_GL_X, _GL_W = (jnp.asarray(a) for a in np.polynomial.legendre.leggauss(_N_GL))
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(_N_GL)  # numpy: safe during a trace
 
 # Komatsu et al. (2011, ApJS 192, 18), eq. 26: fitting constants for the energy
 # density of massive neutrinos; the same treatment astropy documents for its FLRW

@@ -26,7 +26,7 @@ import numpy as np
 __all__: list[str] = []
 
 N_NODES = 128
-_X, _W = (jnp.asarray(a) for a in np.polynomial.legendre.leggauss(N_NODES))
+_X, _W = np.polynomial.legendre.leggauss(N_NODES)  # numpy: safe to create during a trace
 
 #: Inner limit of the enclosed-mass integral, as a fraction of min(r, scale).
 INNER_FRACTION = 1.0e-7

@@ -14,7 +14,9 @@ from lensinfer.profiles.base import SphericalProfile, as_float
 __all__ = ["Sersic", "sersic_b"]
 
 _N_DEPROJ = 160
-_X, _W = (jnp.asarray(a) for a in np.polynomial.legendre.leggauss(_N_DEPROJ))
+# numpy (not jnp) module constants: a jnp array created while a trace is active
+# (a lazy import inside jitted code) would leak that trace.
+_X, _W = np.polynomial.legendre.leggauss(_N_DEPROJ)
 #: How many e-folds of exp(-b (R/R_eff)^(1/n)) beyond its value at r the
 #: deprojection integrals follow (exp(-45) ~ 3e-20, negligible in float64).
 _TAIL_EFOLDS = 45.0

@@ -1,0 +1,416 @@
+"""A validated model spec plus an observation, turned into a numpyro model.
+
+The physics of one draw lives in :meth:`LensModel.derive`, a pure JAX function
+of the sampled parameters; the numpyro model, the mock-data generator and the
+evidence code all call it, so they cannot drift apart.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Callable
+
+import jax
+import jax.numpy as jnp
+
+from lensinfer.cosmology import Cosmology
+from lensinfer.model.priors import Normal, TruncatedNormal, Uniform
+from lensinfer.spec import ModelSpec, Observation, PriorSpec
+
+__all__ = [
+    "DERIVED_QUANTITIES",
+    "LIKELIHOOD_SITES",
+    "PARAMETERS",
+    "LensModel",
+    "build_model",
+]
+
+#: Every sampled parameter lensinfer may use: name -> (unit, meaning).
+PARAMETERS = {
+    "log10_m200c": ("dex(Msun)", "log10 of the dark-matter-only halo mass M200c"),
+    "log10_mstar_ref": ("dex(Msun)", "log10 of the SED-scale stellar mass M*_ref (reference IMF)"),
+    "log10_c200c": ("dex", "log10 of the halo concentration c200c = r200c / r_s"),
+    "log10_imf_factor": ("dex", "log10 alpha_IMF = log10(M* / M*_ref)"),
+    "inner_slope": ("", "inner logarithmic density slope of a generalized NFW halo"),
+    "response_nu": ("", "halo response index nu of r_f / r_i = (M_i / M_f)^nu"),
+    "slope": ("", "3-D logarithmic slope of a power-law total density"),
+    "log10_m2d_5kpc": ("dex(Msun)", "log10 of the power-law total projected mass inside 5 kpc"),
+    "r_eff_kpc": ("kpc", "effective (projected half-light) radius of the lens galaxy"),
+    "sersic_index": ("", "Sersic index of the lens galaxy's light"),
+    "z_source": ("", "source redshift (photometric: marginalised over)"),
+    "anisotropy_beta": ("", "constant orbital anisotropy beta of the stars"),
+    "log10_r_anisotropy_reff": ("dex", "log10 of the Osipkov-Merritt radius in units of R_eff"),
+}
+
+#: Derived quantities recorded in every draw: name -> (unit, meaning).
+DERIVED_QUANTITIES = {
+    "mstar_msun": ("Msun", "stellar mass M* = alpha_IMF M*_ref"),
+    "alpha_imf": ("", "alpha_IMF, stellar mass relative to the reference IMF"),
+    "m200c_msun": ("Msun", "halo mass M200c (NaN for a total power law)"),
+    "c200c": ("", "halo concentration (NaN for a total power law)"),
+    "galaxy_fraction": ("", "f_gal = M*(<r200c) / M200c"),
+    "einstein_radius_arcsec": ("arcsec", "predicted Einstein radius"),
+    "projected_mass_einstein_msun": ("Msun", "total projected mass inside the predicted Einstein radius"),
+    "fdm_einstein": ("", "dark-matter fraction of the projected mass inside the Einstein radius"),
+    "fdm_reff": ("", "dark-matter fraction of the 3-D mass inside R_eff"),
+    "density_slope_einstein": (
+        "",
+        "mass-weighted total 3-D density slope inside R_E, 3 - dlnM/dlnr at R_E "
+        "(Dutton & Treu 2014, eq. 2)",
+    ),
+    "contraction_ratio_reff": (
+        "",
+        "dark matter inside R_eff after / before the response (1 for no response)",
+    ),
+}
+
+#: Likelihood sites (observed quantities): name -> (unit, meaning).
+LIKELIHOOD_SITES = {
+    "einstein_radius": ("arcsec", "measured Einstein radius"),
+    "stellar_mass": ("dex(Msun)", "SED stellar mass log10 M*_ref under the reference IMF"),
+    "velocity_dispersion": ("km/s", "aperture stellar velocity dispersion"),
+}
+
+_AGE_GYR = 10.0  # age of the population used to turn a named IMF into alpha_IMF
+
+
+def _simple_prior(p: PriorSpec):
+    if p.kind == "uniform":
+        return Uniform(p.low, p.high)
+    if p.kind == "normal":
+        return Normal(p.mean, p.sd)
+    raise ValueError(f"not a simple prior: {p}")
+
+
+@dataclasses.dataclass(frozen=True)
+class ParameterPlan:
+    """How one sampled parameter gets its prior: from earlier parameters' values."""
+
+    name: str
+    prior: Callable[[dict], object]  # values so far -> Uniform / Normal / TruncatedNormal
+    describe: str
+
+
+@dataclasses.dataclass(frozen=True)
+class LensModel:
+    """A model spec applied to one observation.
+
+    Attributes
+    ----------
+    spec : ModelSpec
+    observation : Observation
+    cosmology : Cosmology
+    plan : tuple of ParameterPlan
+        The sampled parameters in sampling order (later priors may depend on
+        earlier values, e.g. M*_ref on M200c through a stellar-to-halo relation).
+    fixed : dict
+        Parameters held fixed (named IMF factor, exact nuisance values).
+    """
+
+    spec: ModelSpec
+    observation: Observation
+    cosmology: Cosmology
+    plan: tuple
+    fixed: dict
+    kpc_per_arcsec: float
+
+    @property
+    def parameter_names(self) -> list[str]:
+        return [p.name for p in self.plan]
+
+    @property
+    def uses_kinematics(self) -> bool:
+        return bool(self.spec.kinematics.get("use")) and self.observation.kinematics is not None
+
+    # ------------------------------------------------------------------ priors
+    def prior_transform(self, u):
+        """Map a point of the unit cube (one coordinate per parameter) to parameters.
+
+        Sequential inverse-CDF transforms, in the order of :attr:`plan`, so
+        conditional priors (M*_ref given M200c, c200c given M200c) stay exact.
+        """
+        values = {}
+        for k, p in enumerate(self.plan):
+            values[p.name] = p.prior(values).from_unit_cube(u[..., k])
+        return values
+
+    def prior_descriptions(self) -> dict[str, str]:
+        return {p.name: p.describe for p in self.plan}
+
+    # ------------------------------------------------------------- physics
+    def _value(self, params, name):
+        return params[name] if name in params else self.fixed[name]
+
+    def build_profiles(self, params):
+        """(stars, dark_matter, halo, extras) profiles for one draw."""
+        from lensinfer.contraction import contract_halo
+        from lensinfer.profiles import NFW, GeneralizedNFW, Hernquist, PowerLaw, Sersic
+
+        obs = self.observation
+        r_eff = self._value(params, "r_eff_kpc")
+        n = self._value(params, "sersic_index")
+        mstar = 10.0 ** (self._value(params, "log10_mstar_ref") + self._value(params, "log10_imf_factor"))
+        if obs.light_profile == "sersic":
+            stars = Sersic(mstar, r_eff, n)
+        else:
+            stars = Hernquist(mstar, r_eff / 1.8153)  # R_eff = 1.8153 a (Hernquist 1990)
+        if self.spec.mass_model == "total_power_law":
+            gamma = self._value(params, "slope")
+            m5 = 10.0 ** self._value(params, "log10_m2d_5kpc")
+            unit = PowerLaw(1.0, 5.0, gamma)
+            total = PowerLaw(m5 / unit.projected_mass(5.0), 5.0, gamma)
+            return stars, None, None, {"total": total}
+        z_l = obs.z_lens
+        m200 = 10.0 ** self._value(params, "log10_m200c")
+        c200 = 10.0 ** self._value(params, "log10_c200c")
+        if self.spec.halo_profile == "nfw":
+            halo = NFW.from_m200c(m200, c200, z_l, self.cosmology)
+        else:
+            halo = GeneralizedNFW.from_m200c(
+                m200, c200, self._value(params, "inner_slope"), z_l, self.cosmology
+            )
+        r200 = (3.0 * m200 / (4.0 * jnp.pi * 200.0 * self.cosmology.critical_density(z_l))) ** (
+            1.0 / 3.0
+        )
+        kwargs = {}
+        if self.spec.prescription == "power":
+            kwargs["response_index"] = self._value(params, "response_nu")
+        dm = contract_halo(halo, stars, self.spec.prescription, r200c=r200, **kwargs)
+        return stars, dm, halo, {"r200c": r200, "m200c": m200, "c200c": c200}
+
+    def derive(self, params) -> dict:
+        """All derived quantities of one draw (pure JAX; see DERIVED_QUANTITIES)."""
+        from lensinfer.lensing import critical_surface_density, einstein_radius_kpc
+
+        obs = self.observation
+        stars, dm, halo, extra = self.build_profiles(params)
+        total = extra["total"] if dm is None else stars + dm
+        z_s = self._value(params, "z_source")
+        sigma_cr = critical_surface_density(obs.z_lens, z_s, self.cosmology)
+        r_e = einstein_radius_kpc(total, sigma_cr)
+        r_eff = self._value(params, "r_eff_kpc")
+        m2d_e = total.projected_mass(r_e)
+        m2d_star = stars.projected_mass(r_e)
+        m3d_star_reff = stars.enclosed_mass(r_eff)
+
+        def log_m3d(lnr):
+            return jnp.log(total.enclosed_mass(jnp.exp(lnr)))
+
+        dlnm = jax.jvp(log_m3d, (jnp.log(r_e),), (jnp.ones_like(r_e),))[1]
+        out = {
+            "mstar_msun": stars.mass,
+            "alpha_imf": 10.0 ** self._value(params, "log10_imf_factor"),
+            "einstein_radius_arcsec": r_e / self.kpc_per_arcsec,
+            "projected_mass_einstein_msun": m2d_e,
+            "fdm_einstein": 1.0 - m2d_star / m2d_e,
+            "density_slope_einstein": 3.0 - dlnm,
+        }
+        if dm is None:
+            m3d_tot = total.enclosed_mass(r_eff)
+            nan = jnp.full_like(m2d_e, jnp.nan)
+            out.update(
+                m200c_msun=nan,
+                c200c=nan,
+                galaxy_fraction=nan,
+                fdm_reff=1.0 - m3d_star_reff / m3d_tot,
+                contraction_ratio_reff=nan,
+            )
+        else:
+            f_gal = stars.enclosed_mass(extra["r200c"]) / extra["m200c"]
+            m_dm_reff = dm.enclosed_mass(r_eff)
+            out.update(
+                m200c_msun=extra["m200c"],
+                c200c=extra["c200c"],
+                galaxy_fraction=f_gal,
+                fdm_reff=m_dm_reff / (m_dm_reff + m3d_star_reff),
+                contraction_ratio_reff=m_dm_reff / ((1.0 - f_gal) * halo.enclosed_mass(r_eff)),
+            )
+        if self.uses_kinematics:
+            out["sigma_aperture_kms"] = self.predict_dispersion(params, stars, total)
+        return out
+
+    def predict_dispersion(self, params, stars, total):  # pragma: no cover - kinematics issue
+        raise NotImplementedError("kinematics are not available in this version")
+
+    # ---------------------------------------------------------- likelihood
+    def log_likelihood_terms(self, params, derived=None) -> dict:
+        """Gaussian log-likelihood of each observed quantity (one entry per site)."""
+        obs = self.observation
+        d = self.derive(params) if derived is None else derived
+        terms = {
+            "einstein_radius": _normal_logpdf(
+                obs.einstein_radius_arcsec.value,
+                d["einstein_radius_arcsec"],
+                obs.einstein_radius_arcsec.sd,
+            ),
+            "stellar_mass": _normal_logpdf(
+                obs.log10_mstar_msun.value,
+                self._value(params, "log10_mstar_ref"),
+                obs.log10_mstar_msun.sd,
+            ),
+        }
+        if self.uses_kinematics:
+            k = obs.kinematics.sigma_kms
+            terms["velocity_dispersion"] = _normal_logpdf(k.value, d["sigma_aperture_kms"], k.sd)
+        return terms
+
+    def observed_values(self) -> dict:
+        obs = self.observation
+        out = {
+            "einstein_radius": obs.einstein_radius_arcsec.value,
+            "stellar_mass": obs.log10_mstar_msun.value,
+        }
+        if self.uses_kinematics:
+            out["velocity_dispersion"] = obs.kinematics.sigma_kms.value
+        return out
+
+    def log_prior(self, params):
+        """Sum of the prior log densities (in the sampled parameters)."""
+        total = 0.0
+        for p in self.plan:
+            total = total + p.prior(params).distribution().log_prob(params[p.name])
+        return total
+
+    # -------------------------------------------------------------- numpyro
+    def numpyro_model(self):
+        """The numpyro model: samples, deterministics and observed sites."""
+        import numpyro
+        import numpyro.distributions as dist
+
+        obs = self.observation
+        params = {}
+        for p in self.plan:
+            params[p.name] = numpyro.sample(p.name, p.prior(params).distribution())
+        d = self.derive(params)
+        for name, value in d.items():
+            numpyro.deterministic(name, value)
+        numpyro.sample(
+            "einstein_radius",
+            dist.Normal(d["einstein_radius_arcsec"], obs.einstein_radius_arcsec.sd),
+            obs=obs.einstein_radius_arcsec.value,
+        )
+        numpyro.sample(
+            "stellar_mass",
+            dist.Normal(self._value(params, "log10_mstar_ref"), obs.log10_mstar_msun.sd),
+            obs=obs.log10_mstar_msun.value,
+        )
+        if self.uses_kinematics:
+            k = obs.kinematics.sigma_kms
+            numpyro.sample(
+                "velocity_dispersion", dist.Normal(d["sigma_aperture_kms"], k.sd), obs=k.value
+            )
+
+    def __call__(self):
+        return self.numpyro_model()
+
+
+def _normal_logpdf(x, mean, sd):
+    return -0.5 * ((x - mean) / sd) ** 2 - jnp.log(sd) - 0.5 * math.log(2.0 * math.pi)
+
+
+def _cosmology_for(observation: Observation) -> Cosmology:
+    from astropy.cosmology import realizations
+
+    return Cosmology.from_astropy(getattr(realizations, observation.cosmology))
+
+
+def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
+    """Turn a validated model spec and observation into a :class:`LensModel`."""
+    from lensinfer.halo import concentration, concentration_scatter_dex, stellar_mass_from_halo
+    from lensinfer.stellar import imf_mass_factor
+
+    cosmo = _cosmology_for(observation)
+    z_l = observation.z_lens
+    kpc_per_arcsec = float(cosmo.kpc_per_arcsec(z_l))
+    plan: list[ParameterPlan] = []
+    fixed: dict = {}
+
+    def add(name, prior_fn, describe):
+        plan.append(ParameterPlan(name, prior_fn, describe))
+
+    def add_simple(name, p: PriorSpec, note=""):
+        prior = _simple_prior(p)
+        add(name, lambda v, prior=prior: prior, prior.describe() + note)
+
+    # --- halo mass and the SED-scale stellar mass
+    if spec.mass_model == "decomposition":
+        m = spec.log10_m200c
+        if m.kind == "relation":
+            add_simple("log10_m200c", PriorSpec("uniform", low=m.low, high=m.high))
+            relation = m.name
+
+            def mstar_prior(v, relation=relation):
+                med, scatter = stellar_mass_from_halo(10.0 ** v["log10_m200c"], z_l, relation, cosmo)
+                return Normal(jnp.log10(med), scatter)
+
+            add(
+                "log10_mstar_ref",
+                mstar_prior,
+                f"normal(stellar-to-halo relation {relation!r} at M200c, its scatter)",
+            )
+        else:
+            add_simple("log10_m200c", m)
+            add_simple("log10_mstar_ref", spec.log10_mstar_ref)
+        c = spec.log10_c200c
+        if c.kind == "relation":
+            rel = c.name
+            scatter = float(concentration_scatter_dex(rel))
+
+            def c_prior(v, rel=rel, scatter=scatter):
+                med = concentration(10.0 ** v["log10_m200c"], z_l, relation=rel, cosmology=cosmo)
+                return Normal(jnp.log10(med), scatter)
+
+            add("log10_c200c", c_prior, f"normal(concentration-mass relation {rel!r}, {scatter} dex)")
+        else:
+            add_simple("log10_c200c", c)
+        if spec.halo_profile == "gnfw":
+            if spec.inner_slope.kind == "fixed":
+                fixed["inner_slope"] = spec.inner_slope.value
+            else:
+                add_simple("inner_slope", spec.inner_slope)
+        if spec.prescription == "power":
+            add_simple("response_nu", spec.response_nu)
+    else:
+        add_simple("log10_mstar_ref", spec.log10_mstar_ref)
+        add_simple("slope", spec.slope)
+        add_simple("log10_m2d_5kpc", spec.log10_m2d_5kpc)
+
+    # --- the IMF factor
+    f = spec.imf_factor
+    if f.kind == "imf":
+        fixed["log10_imf_factor"] = float(
+            jnp.log10(imf_mass_factor(f.name, reference=observation.reference_imf, age_gyr=_AGE_GYR))
+        )
+    else:
+        add_simple("log10_imf_factor", f)
+
+    # --- photometric nuisance parameters and the source redshift
+    r = observation.r_eff_arcsec
+    if r.fixed:
+        fixed["r_eff_kpc"] = r.value * kpc_per_arcsec
+    else:
+        mu, sd = r.value * kpc_per_arcsec, r.sd * kpc_per_arcsec
+        prior = TruncatedNormal(mu, sd, max(0.05 * mu, mu - 8 * sd), mu + 8 * sd)
+        add("r_eff_kpc", lambda v, prior=prior: prior, prior.describe() + " (from r_eff_arcsec)")
+    n = observation.sersic_index
+    if n.fixed:
+        fixed["sersic_index"] = n.value
+    else:
+        prior = TruncatedNormal(n.value, n.sd, max(0.5, n.value - 8 * n.sd), min(10.0, n.value + 8 * n.sd))
+        add("sersic_index", lambda v, prior=prior: prior, prior.describe())
+    zs = observation.z_source
+    if zs.fixed:
+        fixed["z_source"] = zs.value
+    else:
+        prior = TruncatedNormal(zs.value, zs.sd, z_l + 0.05, zs.value + 8 * zs.sd)
+        add("z_source", lambda v, prior=prior: prior, prior.describe())
+
+    return LensModel(
+        spec=spec,
+        observation=observation,
+        cosmology=cosmo,
+        plan=tuple(plan),
+        fixed=fixed,
+        kpc_per_arcsec=kpc_per_arcsec,
+    )
