@@ -76,7 +76,7 @@ def sample(
         Groups posterior, prior, prior_predictive, sample_stats,
         log_likelihood and observed_data, with provenance in ``attrs``.
     """
-    from numpyro.infer import MCMC, NUTS, Predictive, init_to_value  # noqa: F401
+    from numpyro.infer import MCMC, NUTS, Predictive
 
     lens = _resolve(model, observation)
     if chain_method is None:
@@ -108,7 +108,7 @@ def sample(
     t0 = time.perf_counter()
     mcmc.run(k_mcmc, init_params=init_params, extra_fields=("energy", "diverging", "num_steps"))
     wall = time.perf_counter() - t0
-    prior = Predictive(lens.numpyro_model, num_samples=prior_draws)(k_prior)
+    prior = Predictive(lens.numpyro_model, num_samples=prior_draws)(k_prior, observed=False)
 
     options = dict(
         chains=chains,

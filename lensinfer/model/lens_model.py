@@ -273,8 +273,12 @@ class LensModel:
         return total
 
     # -------------------------------------------------------------- numpyro
-    def numpyro_model(self):
-        """The numpyro model: samples, deterministics and observed sites."""
+    def numpyro_model(self, observed: bool = True):
+        """The numpyro model: samples, deterministics and observed sites.
+
+        With ``observed=False`` the likelihood sites are left unobserved, so
+        numpyro's Predictive draws the prior predictive distribution.
+        """
         import numpyro
         import numpyro.distributions as dist
 
@@ -288,17 +292,19 @@ class LensModel:
         numpyro.sample(
             "einstein_radius",
             dist.Normal(d["einstein_radius_arcsec"], obs.einstein_radius_arcsec.sd),
-            obs=obs.einstein_radius_arcsec.value,
+            obs=obs.einstein_radius_arcsec.value if observed else None,
         )
         numpyro.sample(
             "stellar_mass",
             dist.Normal(self._value(params, "log10_mstar_ref"), obs.log10_mstar_msun.sd),
-            obs=obs.log10_mstar_msun.value,
+            obs=obs.log10_mstar_msun.value if observed else None,
         )
         if self.uses_kinematics:
             k = obs.kinematics.sigma_kms
             numpyro.sample(
-                "velocity_dispersion", dist.Normal(d["sigma_aperture_kms"], k.sd), obs=k.value
+                "velocity_dispersion",
+                dist.Normal(d["sigma_aperture_kms"], k.sd),
+                obs=k.value if observed else None,
             )
 
     def __call__(self):
