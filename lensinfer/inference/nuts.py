@@ -76,20 +76,19 @@ def sample(
         Groups posterior, prior, prior_predictive, sample_stats,
         log_likelihood and observed_data, with provenance in ``attrs``.
     """
-    from numpyro.infer import MCMC, NUTS, Predictive
+    from numpyro.infer import MCMC, NUTS
+
+    from lensinfer.inference.initialise import draw_prior, initial_points, to_unconstrained
 
     lens = _resolve(model, observation)
     if chain_method is None:
         chain_method = "parallel" if jax.local_device_count() >= chains else "sequential"
     key = jax.random.PRNGKey(seed)
-    k_init, k_mcmc, k_prior = jax.random.split(key, 3)
+    k_prior, k_mcmc = jax.random.split(key)
 
-    from lensinfer.inference.initialise import initial_points
-
-    starts = initial_points(lens, chains, k_init)
-    from numpyro.infer.util import unconstrain_fn
-
-    init_params = jax.vmap(lambda p: unconstrain_fn(lens.numpyro_model, (), {}, p))(starts)
+    prior = draw_prior(lens, k_prior, max(prior_draws, 512, 8 * chains))
+    starts = initial_points(prior, chains)
+    init_params = to_unconstrained(lens, starts)
 
     kernel = NUTS(
         lens.numpyro_model,
@@ -108,7 +107,6 @@ def sample(
     t0 = time.perf_counter()
     mcmc.run(k_mcmc, init_params=init_params, extra_fields=("energy", "diverging", "num_steps"))
     wall = time.perf_counter() - t0
-    prior = Predictive(lens.numpyro_model, num_samples=prior_draws)(k_prior, observed=False)
 
     options = dict(
         chains=chains,
@@ -121,16 +119,74 @@ def sample(
         chain_method=chain_method,
         prior_draws=prior_draws,
     )
-    return to_datatree(mcmc, prior, lens, options, wall, command_line)
+    return to_datatree(mcmc, prior, lens, options, wall, command_line, seed=seed)
 
 
-def to_datatree(mcmc, prior, lens, options, wall_seconds, command_line=None):
-    """arviz DataTree with all groups and provenance attributes."""
+def _sample_stats(mcmc) -> dict:
+    extra = mcmc.get_extra_fields(group_by_chain=True)
+    stats = {
+        "diverging": np.asarray(extra["diverging"]),
+        "energy": np.asarray(extra["energy"]),
+        "n_steps": np.asarray(extra["num_steps"]),
+    }
+    # Tree depth from the number of leapfrog steps (numpyro's num_steps = 2^depth - 1
+    # for a full tree); saturation is flagged against the kernel's maximum.
+    depth = np.floor(np.log2(np.maximum(stats["n_steps"], 1))).astype(int) + 1
+    stats["tree_depth"] = depth
+    max_depth = mcmc.sampler._max_tree_depth
+    max_depth = max_depth[0] if isinstance(max_depth, tuple) else max_depth
+    stats["reached_max_tree_depth"] = depth >= max_depth
+    return stats
+
+
+def to_datatree(mcmc, prior, lens, options, wall_seconds, command_line=None, seed=0):
+    """arviz DataTree with all groups and provenance attributes.
+
+    Built with ``arviz.from_dict`` from the samples, the recorded derived
+    quantities and the prior draws: every likelihood term is a Gaussian in a
+    recorded quantity, so nothing re-runs the model draw by draw (which costs
+    minutes for a contraction model).
+    """
     import arviz as az
 
-    dt = az.from_numpyro(mcmc, prior=prior, log_likelihood=True)
+    post = {k: np.asarray(v) for k, v in mcmc.get_samples(group_by_chain=True).items()}
+    n_prior = options.get("prior_draws", 500)
+    prior_vals = {**prior["params"], **prior["derived"]}
+    prior_vals = {k: v[None, :n_prior] for k, v in prior_vals.items()}
+    observed = lens.observed_values()
+    rng = np.random.default_rng(seed)
+    sds = lens.observed_sds()
+    prior_pred = {
+        name: (prior_vals[pred_key][0] + sds[name] * rng.standard_normal(n_prior))[None, :]
+        for name, pred_key in lens.predicted_keys().items()
+    }
+    data = {
+        "posterior": post,
+        "sample_stats": _sample_stats(mcmc),
+        "log_likelihood": pointwise_log_likelihood(lens, post),
+        "observed_data": {k: np.asarray(v) for k, v in observed.items()},
+        "prior": prior_vals,
+        "prior_predictive": prior_pred,
+    }
+    dt = az.from_dict(data)
     dt.attrs.update(provenance(lens, options, wall_seconds, command_line))
     return dt
+
+
+def pointwise_log_likelihood(lens, samples) -> dict:
+    """Log-likelihood of each observed quantity for every draw (numpy arrays).
+
+    ``samples`` maps sampled and derived names to arrays of any common shape.
+    """
+    from lensinfer.model.lens_model import _normal_logpdf
+
+    values = lens.observed_values()
+    sds = lens.observed_sds()
+    out = {}
+    for name, key in lens.predicted_keys().items():
+        pred = samples[key] if key in samples else lens.fixed[key]
+        out[name] = np.asarray(_normal_logpdf(values[name], np.asarray(pred), sds[name]))
+    return out
 
 
 def provenance(lens, options, wall_seconds=None, command_line=None) -> dict:

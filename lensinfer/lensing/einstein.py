@@ -25,7 +25,7 @@ def _log_kbar(profile, u, sigma_crit):
     return jnp.log(profile.projected_mass(R)) - jnp.log(jnp.pi * sigma_crit) - 2.0 * u
 
 
-def einstein_radius_kpc(components, sigma_crit):
+def einstein_radius_kpc(components, sigma_crit, r_guess=None):
     r"""Einstein radius in kpc: the R where the mean convergence equals 1.
 
     Solves :math:`g(u) = \ln\bar\kappa(e^u) = 0` in :math:`u = \ln R`, i.e.
@@ -36,6 +36,9 @@ def einstein_radius_kpc(components, sigma_crit):
     step on the differentiable residual then gives the exact implicit
     derivative :math:`dR_E/dp = -(\partial g/\partial p)/(\partial g/\partial u)\,R_E`
     for every profile parameter p.
+
+    ``r_guess`` (kpc), e.g. the observed Einstein radius, starts the Newton
+    steps near the root (3-4 steps instead of ~8 from the bracket's middle).
 
     Returns 0 when the lens is sub-critical (mean convergence below 1 even at
     0.1 pc: no Einstein ring forms) and ``R_MAX_KPC`` (1 Mpc) when it is still
@@ -69,8 +72,11 @@ def einstein_radius_kpc(components, sigma_crit):
         u_new = jnp.where(ok, newton, 0.5 * (a + b))
         return a, b, u_new, u_new - u, it + 1
 
-    # Start from the middle of the bracket in ln R (about 0.3 kpc).
-    u0 = 0.5 * (lo + hi)
+    # Start from the guess, or the middle of the bracket in ln R (about 0.3 kpc).
+    if r_guess is None:
+        u0 = 0.5 * (lo + hi)
+    else:
+        u0 = jnp.clip(jnp.log(jax.lax.stop_gradient(jnp.asarray(r_guess, dtype=jnp.float64))), lo + 1e-6, hi - 1e-6)
     state = (lo, hi, u0, jnp.asarray(jnp.inf), jnp.asarray(0))
     _, _, u, _, _ = jax.lax.while_loop(cond, step, state)
     u = jax.lax.stop_gradient(u)

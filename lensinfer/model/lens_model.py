@@ -188,7 +188,9 @@ class LensModel:
         total = extra["total"] if dm is None else stars + dm
         z_s = self._value(params, "z_source")
         sigma_cr = critical_surface_density(obs.z_lens, z_s, self.cosmology)
-        r_e = einstein_radius_kpc(total, sigma_cr)
+        r_e = einstein_radius_kpc(
+            total, sigma_cr, r_guess=obs.einstein_radius_arcsec.value * self.kpc_per_arcsec
+        )
         r_eff = self._value(params, "r_eff_kpc")
         m2d_e = total.projected_mass(r_e)
         m2d_star = stars.projected_mass(r_e)
@@ -263,6 +265,23 @@ class LensModel:
         }
         if self.uses_kinematics:
             out["velocity_dispersion"] = obs.kinematics.sigma_kms.value
+        return out
+
+    def observed_sds(self) -> dict:
+        obs = self.observation
+        out = {
+            "einstein_radius": obs.einstein_radius_arcsec.sd,
+            "stellar_mass": obs.log10_mstar_msun.sd,
+        }
+        if self.uses_kinematics:
+            out["velocity_dispersion"] = obs.kinematics.sigma_kms.sd
+        return out
+
+    def predicted_keys(self) -> dict:
+        """Likelihood site -> the sampled or derived quantity it compares with."""
+        out = {"einstein_radius": "einstein_radius_arcsec", "stellar_mass": "log10_mstar_ref"}
+        if self.uses_kinematics:
+            out["velocity_dispersion"] = "sigma_aperture_kms"
         return out
 
     def log_prior(self, params):

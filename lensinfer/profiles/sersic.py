@@ -107,6 +107,8 @@ class Sersic(SphericalProfile):
         Projected half-mass radius, kpc.
     n : float
         Sérsic index (0.5 <= n <= 10 is the validated range).
+    b_n : float, optional
+        Leave unset: :func:`sersic_b` of n, computed at construction.
     deprojection : {"table", "quadrature"}
         How the 3-D density and enclosed mass are evaluated: ``"table"``
         (default) interpolates a table of the quadrature computed once per
@@ -120,8 +122,14 @@ class Sersic(SphericalProfile):
     r_eff: jax.Array
     n: jax.Array
     deprojection: str = dataclasses.field(default="table", metadata=dict(static=True))
+    b_n: jax.Array = None
 
     def __post_init__(self):
+        # b_n is computed once at construction (five incomplete-gamma Newton
+        # steps) and then carried as a leaf, so loops that evaluate the
+        # profile many times (root finds) do not recompute it.
+        if self.b_n is None and isinstance(self.n, (int, float, np.ndarray, jax.Array)):
+            object.__setattr__(self, "b_n", sersic_b(self.n))
         if self.deprojection not in ("table", "quadrature"):
             raise ValueError(
                 f"Sersic deprojection must be 'table' or 'quadrature', not {self.deprojection!r}"
@@ -135,8 +143,8 @@ class Sersic(SphericalProfile):
 
     @property
     def b(self):
-        """b_n for this profile's index."""
-        return sersic_b(self.n)
+        """b_n for this profile's index (see :func:`sersic_b`)."""
+        return self.b_n
 
     def _sigma_e(self, b):
         n = self.n
