@@ -3,7 +3,7 @@
 - :mod:`~lensinfer.halo.mass_definition` — overdensities (200c, 500c, 200m, virial
   after Bryan & Norman 1998), radii, and :func:`convert_mass` between definitions
   for an NFW halo;
-- :mod:`~lensinfer.halo.concentration` — median :math:`c_{200c}` from published
+- :mod:`~lensinfer.halo.concentration_mass` — median :math:`c_{200c}` from published
   concentration–mass relations (Duffy et al. 2008; Dutton & Macciò 2014) and their
   scatter;
 - :mod:`~lensinfer.halo.stellar_halo` — median reference-IMF stellar mass from
@@ -17,7 +17,7 @@ differentiable; names of definitions and relations are static strings.
 """
 
 from lensinfer.halo.baryons import baryon_fraction, max_galaxy_fraction
-from lensinfer.halo.concentration import (
+from lensinfer.halo.concentration_mass import (
     CONCENTRATION_RELATIONS,
     concentration,
     concentration_log_prior,

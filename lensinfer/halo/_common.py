@@ -35,40 +35,37 @@ def as_float64(value, unit: str | None = None) -> jax.Array:
 
 
 def newton_root(
-    residual: Callable[..., jax.Array],
+    residual_and_slope: Callable[..., tuple[jax.Array, jax.Array]],
     u0: jax.Array,
     params: tuple[jax.Array, ...],
     n_steps: int,
 ) -> jax.Array:
-    r"""Solve ``residual(u, *params) = 0`` elementwise with a fixed number of Newton steps.
+    r"""Solve ``R(u, *params) = 0`` elementwise with a fixed number of Newton steps.
 
-    The iterations run on ``stop_gradient`` copies of the inputs, so no derivative
-    flows through the loop.  One more Newton step is then taken from the converged
-    (gradient-stopped) iterate ``u*`` with the live parameters,
+    ``residual_and_slope(u, *params)`` returns :math:`R` and :math:`\partial_u R`
+    (elementwise: the Jacobian in ``u`` is diagonal).  The iterations run on
+    ``stop_gradient`` copies of the inputs, so no derivative flows through the
+    loop.  One more Newton step is then taken from the converged
+    (gradient-stopped) iterate ``u*`` with the live parameters and the slope held
+    fixed,
 
     .. math:: u = u^* - R(u^*, \theta) / [\partial_u R(u^*, \theta)]_{\rm stop},
 
     whose derivative is :math:`-\partial_\theta R / \partial_u R`, the implicit
     function theorem's, exactly at the root.  Its value moves ``u*`` by at most one
-    more (quadratically small) Newton correction.
-
-    ``residual`` must act elementwise (its Jacobian in ``u`` is diagonal), so the
-    derivative is one forward-mode product with a tangent of ones.  All ``params``
-    must broadcast together; ``u0`` is broadcast to their common shape.
+    more (quadratically small) Newton correction.  All ``params`` must broadcast
+    together; ``u0`` is broadcast to their common shape.
     """
     shape = jnp.broadcast_shapes(jnp.shape(u0), *(jnp.shape(p) for p in params))
     params_stopped = tuple(jax.lax.stop_gradient(p) for p in params)
     u0 = jnp.broadcast_to(jax.lax.stop_gradient(u0), shape)
 
-    def value_and_slope(u, args):
-        return jax.jvp(lambda v: residual(v, *args), (u,), (jnp.ones_like(u),))
-
     def step(_, u):
-        r, slope = value_and_slope(u, params_stopped)
+        r, slope = residual_and_slope(u, *params_stopped)
         return u - r / slope
 
     u_star = jax.lax.stop_gradient(jax.lax.fori_loop(0, n_steps, step, u0))
-    r, slope = value_and_slope(u_star, params)
+    r, slope = residual_and_slope(u_star, *params)
     return u_star - r / jax.lax.stop_gradient(slope)
 
 

@@ -23,9 +23,10 @@ def baryon_fraction(cosmology: Cosmology | None = None):
         :math:`\Omega_{b,0} / \Omega_{m,0}` (the ratio is the same at every
         redshift).
 
-    References
-    ----------
-    Planck Collaboration 2020, A&A, 641, A6, Table 2 (the default parameters).
+    Notes
+    -----
+    The default parameters are those of astropy's ``Planck18`` realisation, as
+    for :meth:`lensinfer.cosmology.Cosmology.default`.
     """
     cosmology = resolve_cosmology(cosmology)
     return cosmology.ob0 / cosmology.om0

@@ -23,6 +23,7 @@ float64, works on scalars or broadcasting arrays, and is differentiable.
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 
@@ -105,9 +106,7 @@ def virial_overdensity(z, cosmology: Cosmology | None = None):
     ----------
     Bryan, G. L. & Norman, M. L. 1998, ApJ, 495, 80, eq. 6.
     """
-    cosmology = resolve_cosmology(cosmology)
-    x = cosmology.omega_m(as_float64(z)) - 1.0
-    return 18.0 * math.pi**2 + 82.0 * x - 39.0 * x**2
+    return _overdensity(as_float64(z), resolve_cosmology(cosmology), definition="vir")
 
 
 def overdensity(definition: str, z, cosmology: Cosmology | None = None):
@@ -137,12 +136,23 @@ def overdensity(definition: str, z, cosmology: Cosmology | None = None):
     ----------
     Bryan, G. L. & Norman, M. L. 1998, ApJ, 495, 80, eq. 6 (``"vir"``).
     """
+    _parse_definition(definition)
+    return _overdensity(as_float64(z), resolve_cosmology(cosmology), definition=definition)
+
+
+# The public functions validate their static strings and convert units eagerly,
+# then call jitted cores: an un-jitted call compiles one small program per input
+# shape instead of dispatching (and compiling) every operation separately.  Inside
+# a user's jax.jit the cores are simply inlined.
+@functools.partial(jax.jit, static_argnames="definition")
+def _overdensity(z, cosmology: Cosmology, *, definition: str):
     kind, factor = _parse_definition(definition)
-    z = as_float64(z)
     if kind == "vir":
-        return virial_overdensity(z, cosmology)
+        # Bryan & Norman (1998), eq. 6 (flat universe).
+        x = cosmology.omega_m(z) - 1.0
+        return 18.0 * math.pi**2 + 82.0 * x - 39.0 * x**2
     if kind == "m":
-        return factor * resolve_cosmology(cosmology).omega_m(z)
+        return factor * cosmology.omega_m(z)
     return jnp.full_like(z, factor)
 
 
@@ -167,10 +177,15 @@ def radius_from_mass(mass, z, definition: str = "200c", cosmology: Cosmology | N
     array
         :math:`r_\Delta` in kpc.
     """
-    cosmology = resolve_cosmology(cosmology)
-    mass = as_float64(mass, "Msun")
-    z = as_float64(z)
-    density = overdensity(definition, z, cosmology) * cosmology.critical_density(z)
+    _parse_definition(definition)
+    return _radius_from_mass(
+        as_float64(mass, "Msun"), as_float64(z), resolve_cosmology(cosmology), definition=definition
+    )
+
+
+@functools.partial(jax.jit, static_argnames="definition")
+def _radius_from_mass(mass, z, cosmology: Cosmology, *, definition: str):
+    density = _overdensity(z, cosmology, definition=definition) * cosmology.critical_density(z)
     return jnp.cbrt(3.0 * mass / (4.0 * math.pi * density))
 
 
@@ -195,16 +210,28 @@ def mass_from_radius(radius, z, definition: str = "200c", cosmology: Cosmology |
     array
         :math:`M_\Delta` in Msun.
     """
-    cosmology = resolve_cosmology(cosmology)
+    _parse_definition(definition)
     radius = as_float64(radius, "kpc")
-    z = as_float64(z)
-    density = overdensity(definition, z, cosmology) * cosmology.critical_density(z)
+    cosmology = resolve_cosmology(cosmology)
+    return _mass_from_radius(radius, as_float64(z), cosmology, definition=definition)
+
+
+@functools.partial(jax.jit, static_argnames="definition")
+def _mass_from_radius(radius, z, cosmology: Cosmology, *, definition: str):
+    density = _overdensity(z, cosmology, definition=definition) * cosmology.critical_density(z)
     return 4.0 * math.pi / 3.0 * density * radius**3
 
 
 def _log_overdensity_ratio(from_: str, to: str, z, cosmology: Cosmology):
     """ln(Delta_to / Delta_from) at redshift z."""
-    return jnp.log(overdensity(to, z, cosmology)) - jnp.log(overdensity(from_, z, cosmology))
+    return jnp.log(_overdensity(z, cosmology, definition=to)) - jnp.log(
+        _overdensity(z, cosmology, definition=from_)
+    )
+
+
+def _log_mass_slope(x):
+    r"""Logarithmic slope :math:`d\ln m / d\ln x = x^2 / [(1+x)^2 m(x)]` of the NFW mass."""
+    return x**2 / ((1.0 + x) ** 2 * _nfw_mass_shape(x))
 
 
 def _concentration_residual(log_c_new, log_c_old, log_ratio):
@@ -220,17 +247,26 @@ def _concentration_residual(log_c_new, log_c_old, log_ratio):
     )
 
 
+def _concentration_residual_and_slope(log_c_new, log_c_old, log_ratio):
+    """The residual and its derivative in ln c', gamma(c') - 3 (between -3 and -1)."""
+    residual = _concentration_residual(log_c_new, log_c_old, log_ratio)
+    return residual, _log_mass_slope(jnp.exp(log_c_new)) - 3.0
+
+
+@jax.jit
 def _convert_nfw(mass, concentration, log_ratio):
     """(mass, concentration) of the same NFW halo at an overdensity exp(log_ratio) times higher.
 
     Internal core of :func:`convert_mass`, taking the precomputed
-    ln(Delta_to / Delta_from) so callers that iterate can reuse it.
+    ln(Delta_to / Delta_from) so callers that iterate can reuse it.  Jitted so that
+    eager (un-jitted) calls do not re-trace the Newton loop each time; inside an
+    outer ``jax.jit`` it is simply inlined.
     """
     log_c = jnp.log(concentration)
-    log_c_new = newton_root(_concentration_residual, log_c, (log_c, log_ratio), _N_NEWTON)
+    log_c_new = newton_root(_concentration_residual_and_slope, log_c, (log_c, log_ratio), _N_NEWTON)
     c_new = jnp.exp(log_c_new)
     mass_new = mass * _nfw_mass_shape(c_new) / _nfw_mass_shape(concentration)
-    return mass_new, c_new
+    return mass_new, jnp.broadcast_to(c_new, mass_new.shape)
 
 
 def convert_mass(
@@ -296,12 +332,20 @@ def convert_mass(
     """
     _parse_definition(from_)
     _parse_definition(to)
-    mass = as_float64(mass, "Msun")
-    concentration = as_float64(concentration)
-    z = as_float64(z)
+    return _convert_mass(
+        as_float64(mass, "Msun"),
+        as_float64(concentration),
+        as_float64(z),
+        resolve_cosmology(cosmology),
+        from_=from_,
+        to=to,
+    )
+
+
+@functools.partial(jax.jit, static_argnames=("from_", "to"))
+def _convert_mass(mass, concentration, z, cosmology: Cosmology, *, from_: str, to: str):
     if from_ == to:
         shape = jnp.broadcast_shapes(mass.shape, concentration.shape, z.shape)
         return jnp.broadcast_to(mass, shape), jnp.broadcast_to(concentration, shape)
-    cosmology = resolve_cosmology(cosmology)
     log_ratio = _log_overdensity_ratio(from_, to, z, cosmology)
     return _convert_nfw(mass, concentration, log_ratio)

@@ -25,13 +25,15 @@ Relations (static names):
     concentration–mass relation unless one is given; scatter
     :math:`\xi(a) = 0.218 - 0.023 (a - 1)` dex.
 
-Masses are in Msun as published (the authors' own h: 0.704 for Moster et al.,
-0.7 for Behroozi et al.); the relations are not rescaled to another cosmology.
+Masses are in Msun as published, for the authors' own cosmologies (h = 0.704
+for Moster et al., 0.7 for Behroozi et al.; from memory); the relations are not
+rescaled to another cosmology.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from collections.abc import Callable
 
@@ -40,7 +42,8 @@ import jax.numpy as jnp
 
 from lensinfer.cosmology import Cosmology
 from lensinfer.halo._common import as_float64, normal_logpdf, resolve_cosmology
-from lensinfer.halo.concentration import concentration
+from lensinfer.halo.concentration_mass import _lookup as _lookup_concentration
+from lensinfer.halo.concentration_mass import concentration
 from lensinfer.halo.mass_definition import convert_mass
 
 __all__ = [
@@ -180,13 +183,27 @@ def _lookup(relation: str) -> _StellarHaloFit:
 
 
 def _log10_mstar_ref_and_scatter(m200c, z, relation, cosmology, c200c, concentration_relation):
+    """Validate names and units eagerly, then call the jitted core."""
+    _lookup(relation)
+    _lookup_concentration(concentration_relation)
+    return _log10_mstar_ref_and_scatter_jit(
+        as_float64(m200c, "Msun"),
+        as_float64(z),
+        resolve_cosmology(cosmology),
+        None if c200c is None else as_float64(c200c),
+        relation=relation,
+        concentration_relation=concentration_relation,
+    )
+
+
+@functools.partial(jax.jit, static_argnames=("relation", "concentration_relation"))
+def _log10_mstar_ref_and_scatter_jit(
+    m200c, z, cosmology: Cosmology, c200c, *, relation: str, concentration_relation: str
+):
     fit = _lookup(relation)
-    m200c = as_float64(m200c, "Msun")
-    z = as_float64(z)
     if fit.definition == "200c":
         m_halo = m200c
     else:
-        cosmology = resolve_cosmology(cosmology)
         if c200c is None:
             c200c = concentration(m200c, z, concentration_relation, cosmology)
         m_halo, _ = convert_mass(

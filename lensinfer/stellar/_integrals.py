@@ -61,9 +61,10 @@ def clip_interval(m1, m2, lo, hi):
     An empty intersection gives a == b (a zero-length interval), so integrals
     over it vanish without any Python branching.
     """
-    a = jnp.clip(as_float(m1), lo, hi)
-    b = jnp.clip(as_float(m2), lo, hi)
-    return a, jnp.maximum(a, b)
+    # lax-level min/max (not jnp.clip) keep the traced graph small.
+    a = jnp.minimum(jnp.maximum(as_float(m1), lo), hi)
+    b = jnp.minimum(jnp.maximum(as_float(m2), a), hi)
+    return a, b
 
 
 def power_segment_moment(k, amplitude, slope, pivot, lo, hi, m1, m2):

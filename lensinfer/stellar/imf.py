@@ -138,8 +138,6 @@ class _IMFMethods:
         return self.moment(1.0, m1, m2)
 
 
-
-
 @jax.tree_util.register_dataclass
 @dataclasses.dataclass(frozen=True)
 class PowerLawIMF(_IMFMethods):
@@ -277,7 +275,7 @@ class LognormalPowerLawIMF(_IMFMethods):
 
     References
     ----------
-    Chabrier, G. 2003, PASP, 115, 763, Table 1 (single objects, disk IMF:
+    Chabrier, G. 2003, PASP, 115, 763, Table 1 (single objects:
     m_c = 0.079, sigma = 0.69 for m <= 1 Msun; x = 1.3 in dN/dlog m above
     1 Msun), eq. 17.  Values from memory of the paper.
     """

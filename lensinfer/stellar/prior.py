@@ -125,8 +125,8 @@ class ScalarPrior:
         if self.kind == "fixed":
             return jnp.where(x == self.loc, 0.0, -jnp.inf)
         if self.kind == "uniform":
-            inside = (x >= self.loc) & (x <= self.loc + self.scale)
-            return jnp.where(inside, -jnp.log(self.scale), -jnp.inf)
+            z = (x - self.loc) / self.scale  # as scipy.stats does: no loc + scale rounding
+            return jnp.where((z >= 0.0) & (z <= 1.0), -jnp.log(self.scale), -jnp.inf)
         z = (x - self.loc) / self.scale
         return -0.5 * z * z - jnp.log(self.scale) - _HALF_LOG_2PI
 
@@ -301,13 +301,20 @@ def mass_to_light_prior(
     """
     if kind not in PRIOR_KINDS:
         raise ValueError(f"kind={kind!r} is not a prior kind; accepted: {', '.join(PRIOR_KINDS)}")
-    ref = get_imf(reference)  # validates the name early
+    try:
+        ref = get_imf(reference)
+    except ValueError as err:
+        raise ValueError(f"reference={reference!r}: {err}") from None
     ref_name = reference if isinstance(reference, str) else type(ref).__name__
     options = dict(mass_factor_options or {})
 
     def to_dex(x, what):
         if _is_imf_like(x):
-            return jnp.log10(imf_mass_factor(x, ref, age_gyr, **options)), _imf_label(x)
+            try:
+                target = get_imf(x)
+            except ValueError as err:
+                raise ValueError(f"{what}={x!r}: {err}") from None
+            return jnp.log10(imf_mass_factor(target, ref, age_gyr, **options)), _imf_label(x)
         if isinstance(x, bool) or x is None:
             raise ValueError(f"{what}={x!r} must be a number (dex) or an IMF name/object")
         return as_float(x), f"{float(x):g}" if _concrete_float(x, what) is not None else what
@@ -351,6 +358,4 @@ def mass_to_light_prior(
     else:
         eta_prior = ScalarPrior.fixed(eta)
         label += f"; eta={float(eta):g}"
-    return MassToLightPrior(
-        log10_alpha=alpha_prior, eta=eta_prior, reference=ref_name, label=label
-    )
+    return MassToLightPrior(log10_alpha=alpha_prior, eta=eta_prior, reference=ref_name, label=label)
