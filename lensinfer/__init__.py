@@ -14,7 +14,10 @@ masses lose accuracy in float32.  Sub-packages:
 - :mod:`lensinfer.spec`, :mod:`lensinfer.model`, :mod:`lensinfer.inference` —
   declarative files, numpyro models, NUTS and results files.
 
-It also asks JAX for one CPU device per core (at least 4) through XLA_FLAGS,
+It keeps a persistent JAX compilation cache in ``~/.cache/lensinfer/jax``
+(``LENSINFER_JAX_CACHE`` sets another directory, or "off"), so a model is
+compiled once per machine rather than once per run.  It also asks JAX for
+one CPU device per core (at least 4) through XLA_FLAGS,
 unless XLA_FLAGS already sets a device count, so chains can run in parallel.
 """
 
@@ -29,9 +32,20 @@ if "xla_force_host_platform_device_count" not in _os.environ.get("XLA_FLAGS", ""
         + f" --xla_force_host_platform_device_count={max(_os.cpu_count() or 1, 4)}"
     ).strip()
 
-import jax as _jax  # noqa: E402
+import jax as _jax
 
 _jax.config.update("jax_enable_x64", True)
+
+# Persistent compilation cache: compiling a contraction model's NUTS kernel
+# takes tens of seconds, and the same model compiles to the same program in
+# every run.  Set LENSINFER_JAX_CACHE to a directory, or to "off"; an existing
+# jax_compilation_cache_dir setting is left alone.
+_cache_dir = _os.environ.get(
+    "LENSINFER_JAX_CACHE", _os.path.join(_os.path.expanduser("~"), ".cache", "lensinfer", "jax")
+)
+if _cache_dir.lower() not in ("", "0", "off", "none") and not _jax.config.jax_compilation_cache_dir:
+    _jax.config.update("jax_compilation_cache_dir", _cache_dir)
+    _jax.config.update("jax_persistent_cache_min_compile_time_secs", 0.5)
 
 from lensinfer._version import __version__  # noqa: E402
 

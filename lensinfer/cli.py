@@ -30,13 +30,27 @@ EXIT_BAD_INPUT = 2
 
 
 def _add_sampling_options(p, chains=4, warmup=1000, draws=1000):
-    p.add_argument("--chains", type=int, default=chains, help=f"number of chains (default {chains})")
-    p.add_argument("--warmup", type=int, default=warmup, help=f"warm-up steps per chain (default {warmup})")
-    p.add_argument("--draws", type=int, default=draws, help=f"kept draws per chain (default {draws})")
+    p.add_argument(
+        "--chains", type=int, default=chains, help=f"number of chains (default {chains})"
+    )
+    p.add_argument(
+        "--warmup", type=int, default=warmup, help=f"warm-up steps per chain (default {warmup})"
+    )
+    p.add_argument(
+        "--draws", type=int, default=draws, help=f"kept draws per chain (default {draws})"
+    )
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
-    p.add_argument("--target-accept", type=float, default=0.8, help="NUTS target acceptance (default 0.8)")
-    p.add_argument("--max-tree-depth", type=int, default=10, help="NUTS maximum tree depth (default 10)")
-    p.add_argument("--diagonal-mass", action="store_true", help="adapt a diagonal instead of a dense mass matrix")
+    p.add_argument(
+        "--target-accept", type=float, default=0.8, help="NUTS target acceptance (default 0.8)"
+    )
+    p.add_argument(
+        "--max-tree-depth", type=int, default=10, help="NUTS maximum tree depth (default 10)"
+    )
+    p.add_argument(
+        "--diagonal-mass",
+        action="store_true",
+        help="adapt a diagonal instead of a dense mass matrix",
+    )
     p.add_argument("--no-progress", action="store_true", help="hide the progress bar")
 
 
@@ -70,7 +84,11 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("models", help="list the built-in model specs")
 
     p = sub.add_parser("demo", help="run the whole job on the invented demo lens")
-    p.add_argument("--output-dir", default="lensinfer-demo", help="where to write results (default ./lensinfer-demo)")
+    p.add_argument(
+        "--output-dir",
+        default="lensinfer-demo",
+        help="where to write results (default ./lensinfer-demo)",
+    )
     p.add_argument("--model", default="gnedin04", help="model to sample (default gnedin04)")
     _add_sampling_options(p, chains=4, warmup=500, draws=500)
     return parser
@@ -115,9 +133,7 @@ def _run_sample(model_arg, observation_arg, output, args, command_line) -> dict:
     from lensinfer.spec import read_model, read_observation
 
     lens = build_model(read_model(model_arg), read_observation(observation_arg))
-    out_dir = os.path.dirname(os.path.abspath(output))
-    if not os.path.isdir(out_dir):
-        raise ValueError(f"output directory {out_dir} does not exist")
+    _check_output_file(output)
     dt = sample(lens, command_line=command_line, **_sampling_kwargs(args))
     summary = summarize(dt)
     write_results(dt, output)
@@ -127,7 +143,9 @@ def _run_sample(model_arg, observation_arg, output, args, command_line) -> dict:
 
 def _cmd_sample(args, argv) -> int:
     _check_sampling_args(args)
-    summary = _run_sample(args.model, args.observation, args.output, args, "lensinfer " + " ".join(argv))
+    summary = _run_sample(
+        args.model, args.observation, args.output, args, "lensinfer " + " ".join(argv)
+    )
     if args.json:
         print(json.dumps(summary, indent=2))
     else:
@@ -138,7 +156,7 @@ def _cmd_sample(args, argv) -> int:
 
 def _cmd_check(args) -> int:
     from lensinfer.spec import SpecError, builtin_model_path, read_model, read_observation
-    from lensinfer.spec._reader import load_toml
+    from lensinfer.spec._reader import load_toml, read_text
 
     bad = 0
     for f in args.files:
@@ -146,20 +164,36 @@ def _cmd_check(args) -> int:
             path = f if os.path.exists(f) else builtin_model_path(f)
             if path is None:
                 read_model(f)  # raises a SpecError naming the built-in models
-            with open(path, encoding="utf-8") as fh:
-                data = load_toml(fh.read(), path)
+            data = load_toml(read_text(path, "model or observation file"), path)
             if "model" in data:
                 m = read_model(path)
                 print(f"{f}: ok (model {m.name!r}, {m.mass_model}, response {m.prescription})")
             elif "system" in data:
                 o = read_observation(path)
-                print(f"{f}: ok (observation {o.name!r}, z_lens {o.z_lens}, z_source {o.z_source.value})")
+                print(
+                    f"{f}: ok (observation {o.name!r}, z_lens {o.z_lens}, z_source {o.z_source.value})"
+                )
             else:
-                raise SpecError(path, "", None, "a model file (with a [model] section) or an observation file (with a [system] section)", problem="is neither a model nor an observation")
+                raise SpecError(
+                    path,
+                    "",
+                    None,
+                    "a model file (with a [model] section) or an observation file (with a [system] section)",
+                    problem="is neither a model nor an observation",
+                )
         except SpecError as exc:
             print(f"lensinfer: error: {exc}", file=sys.stderr)
             bad += 1
     return EXIT_BAD_INPUT if bad else 0
+
+
+def _check_output_file(path):
+    """Refuse an output path in a missing directory or naming a directory."""
+    out_dir = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(out_dir):
+        raise ValueError(f"cannot write {path}: output directory {out_dir} does not exist")
+    if os.path.isdir(path):
+        raise ValueError(f"cannot write {path}: it is a directory")
 
 
 def _cmd_mock(args) -> int:
@@ -167,13 +201,15 @@ def _cmd_mock(args) -> int:
     from lensinfer.mock import format_observation, make_mock, read_truth
     from lensinfer.spec import read_model
 
+    _check_output_file(args.output)
     spec = read_model(args.model)
     truth = read_truth(args.truth)
     obs, predicted = make_mock(spec, truth, noise=args.noise, seed=args.seed)
     header = (
         f"Mock observation (invented data) made by lensinfer {__version__}\n"
         f"model: {spec.name}; truth: {truth.path}; noise: {'yes, seed ' + str(args.seed) if args.noise else 'no'}\n"
-        + "true values: " + ", ".join(f"{k} = {v:.5g}" for k, v in predicted.items())
+        + "true values: "
+        + ", ".join(f"{k} = {v:.5g}" for k, v in predicted.items())
     )
     text = format_observation(obs, header)
     tmp = _atomic_path(args.output)
@@ -213,7 +249,9 @@ def _print_headline(summary: dict):
             f" 95%: {fmt.format(lo95 / scale)} .. {fmt.format(hi95 / scale)})"
         )
 
-    print(f"model {summary['model']!r} on {summary['observation']!r}: {summary['divergences']} divergences")
+    print(
+        f"model {summary['model']!r} on {summary['observation']!r}: {summary['divergences']} divergences"
+    )
     line("fdm_einstein", "f_DM inside the Einstein radius", "{:.3f}")
     line("alpha_imf", "alpha_IMF (M*/M*_ref)", "{:.3f}")
     line("m200c_msun", "M200c [1e13 Msun]", "{:.3g}", 1e13)
@@ -227,8 +265,12 @@ def _cmd_demo(args, argv) -> int:
     _check_sampling_args(args)
     os.makedirs(args.output_dir, exist_ok=True)
     out = os.path.join(args.output_dir, "demo-results.nc")
-    print(f"lensinfer demo: model {args.model!r} on the invented demo lens {demo_observation_path()}")
-    summary = _run_sample(args.model, demo_observation_path(), out, args, "lensinfer " + " ".join(argv))
+    print(
+        f"lensinfer demo: model {args.model!r} on the invented demo lens {demo_observation_path()}"
+    )
+    summary = _run_sample(
+        args.model, demo_observation_path(), out, args, "lensinfer " + " ".join(argv)
+    )
     print(f"results: {os.path.abspath(out)}")
     print(f"summary: {os.path.abspath(summary_path(out))}")
     _print_headline(summary)

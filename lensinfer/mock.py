@@ -8,7 +8,8 @@ import os
 import numpy as np
 
 from lensinfer.spec import Measurement, Observation, SpecError
-from lensinfer.spec._reader import Table, check_number, load_toml
+from lensinfer.spec._reader import Table, check_number, load_toml, read_text
+from lensinfer.spec.observation import cosmology_name
 
 __all__ = ["Truth", "format_observation", "make_mock", "parse_truth", "read_truth"]
 
@@ -27,12 +28,20 @@ class Truth:
     path: str
 
 
-_ERROR_KEYS = ("einstein_radius_arcsec", "log10_mstar_msun", "r_eff_arcsec", "sersic_index", "z_source", "sigma_kms")
+_ERROR_KEYS = (
+    "einstein_radius_arcsec",
+    "log10_mstar_msun",
+    "r_eff_arcsec",
+    "sersic_index",
+    "z_source",
+    "sigma_kms",
+)
 
 
 def parse_truth(text: str, path: str = "<string>") -> Truth:
     """Validate a truth file (TOML with [system], [truth], [errors], optional [kinematics])."""
     from lensinfer.model import PARAMETERS
+    from lensinfer.model.lens_model import PARAMETER_RANGES
 
     top = Table(load_toml(text, path), path)
     system = top.table("system")
@@ -40,15 +49,24 @@ def parse_truth(text: str, path: str = "<string>") -> Truth:
     z_l = system.number("z_lens", positive=True, expected="a redshift > 0")
     z_s = system.number("z_source", positive=True, expected="a redshift > 0")
     if z_s <= z_l:
-        raise SpecError(path, "system.z_source", z_s, f"a source redshift larger than z_lens = {z_l}")
-    cosmology = system.string("cosmology", default="Planck18")
+        raise SpecError(
+            path, "system.z_source", z_s, f"a source redshift larger than z_lens = {z_l}"
+        )
+    cosmology = cosmology_name(system)
     system.finish(["name", "z_lens", "z_source", "cosmology"])
     truth = top.table("truth")
     values = {}
     for k, v in truth.data.items():
         if k not in PARAMETERS:
-            raise SpecError(path, f"truth.{k}", v, f"a parameter name: {', '.join(PARAMETERS)}", problem="is not a known parameter")
-        values[k] = check_number(v, path, f"truth.{k}")
+            raise SpecError(
+                path,
+                f"truth.{k}",
+                v,
+                f"a parameter name: {', '.join(PARAMETERS)}",
+                problem="is not a known parameter",
+            )
+        lo, hi = PARAMETER_RANGES[k]
+        values[k] = check_number(v, path, f"truth.{k}", low=lo, high=hi)
     errors_t = top.table("errors")
     errors = {}
     for k in _ERROR_KEYS:
@@ -67,19 +85,19 @@ def parse_truth(text: str, path: str = "<string>") -> Truth:
         }
         kin.finish(["aperture_radius_arcsec", "seeing_fwhm_arcsec"])
         if errors.get("sigma_kms", 0.0) <= 0.0:
-            raise SpecError(path, "errors.sigma_kms", errors.get("sigma_kms"), "a positive 1-sigma error when [kinematics] is given")
+            raise SpecError(
+                path,
+                "errors.sigma_kms",
+                errors.get("sigma_kms"),
+                "a positive 1-sigma error when [kinematics] is given",
+            )
     top.finish(["system", "truth", "errors", "kinematics"])
     return Truth(name, z_l, z_s, values, errors, kinematics, cosmology, str(path))
 
 
 def read_truth(path) -> Truth:
     path = os.fspath(path)
-    try:
-        with open(path, encoding="utf-8") as fh:
-            text = fh.read()
-    except OSError as exc:
-        raise SpecError(path, "", None, "a readable truth file", problem=f"cannot be read ({exc.strerror})") from None
-    return parse_truth(text, path)
+    return parse_truth(read_text(path, "truth file"), path)
 
 
 def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
@@ -93,11 +111,19 @@ def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
     from lensinfer.model.lens_model import _cosmology_for
 
     cosmo_obs = Observation(
-        name=truth.name, z_lens=truth.z_lens, z_source=Measurement(truth.z_source, 0.0),
-        einstein_radius_arcsec=Measurement(1.0, 1.0), light_profile="sersic",
-        r_eff_arcsec=Measurement(1.0, 0.0), sersic_index=Measurement(4.0, 0.0),
-        log10_mstar_msun=Measurement(11.0, 1.0), reference_imf="chabrier03", kinematics=None,
-        cosmology=truth.cosmology, text="", path="<mock>",
+        name=truth.name,
+        z_lens=truth.z_lens,
+        z_source=Measurement(truth.z_source, 0.0),
+        einstein_radius_arcsec=Measurement(1.0, 1.0),
+        light_profile="sersic",
+        r_eff_arcsec=Measurement(1.0, 0.0),
+        sersic_index=Measurement(4.0, 0.0),
+        log10_mstar_msun=Measurement(11.0, 1.0),
+        reference_imf="chabrier03",
+        kinematics=None,
+        cosmology=truth.cosmology,
+        text="",
+        path="<mock>",
     )
     kpc_per_arcsec = float(_cosmology_for(cosmo_obs).kpc_per_arcsec(truth.z_lens))
     v = dict(truth.values)
@@ -105,13 +131,19 @@ def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
     need_n = "sersic_index" not in v
     if need_r or need_n:
         missing = [k for k, m in (("r_eff_kpc", need_r), ("sersic_index", need_n)) if m]
-        raise SpecError(truth.path, f"truth.{missing[0]}", None, "the lens galaxy's r_eff_kpc and sersic_index")
+        raise SpecError(
+            truth.path, f"truth.{missing[0]}", None, "the lens galaxy's r_eff_kpc and sersic_index"
+        )
     err = truth.errors
     kin = None
     if truth.kinematics is not None:
         from lensinfer.spec import Kinematics
 
-        kin = Kinematics(Measurement(200.0, err["sigma_kms"]), truth.kinematics["aperture_radius_arcsec"], truth.kinematics["seeing_fwhm_arcsec"])
+        kin = Kinematics(
+            Measurement(200.0, err["sigma_kms"]),
+            truth.kinematics["aperture_radius_arcsec"],
+            truth.kinematics["seeing_fwhm_arcsec"],
+        )
     obs = dataclasses.replace(
         cosmo_obs,
         z_source=Measurement(truth.z_source, err.get("z_source", 0.0)),
@@ -131,7 +163,12 @@ def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
         elif name == "sersic_index":
             params[name] = v["sersic_index"]
         elif name not in v:
-            raise SpecError(truth.path, f"truth.{name}", None, f"a value for every parameter of model {spec.name!r}: {', '.join(lens.parameter_names)}")
+            raise SpecError(
+                truth.path,
+                f"truth.{name}",
+                None,
+                f"a value for every parameter of model {spec.name!r}: {', '.join(lens.parameter_names)}",
+            )
         else:
             params[name] = v[name]
     derived = {k: float(x) for k, x in lens.derive(params).items()}
@@ -142,19 +179,44 @@ def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
 
     theta = derived["einstein_radius_arcsec"]
     if not theta > 0:
-        raise SpecError(truth.path, "truth", None, "parameters that make a super-critical lens (the chosen truth has no Einstein ring)")
+        raise SpecError(
+            truth.path,
+            "truth",
+            None,
+            "parameters of a super-critical lens",
+            problem="gives no Einstein ring (the lens is sub-critical)",
+        )
     mstar_ref = params.get("log10_mstar_ref", v.get("log10_mstar_ref"))
     out = dataclasses.replace(
         obs,
-        z_source=Measurement(noisy(truth.z_source, err.get("z_source", 0.0)) if err.get("z_source", 0) > 0 else truth.z_source, err.get("z_source", 0.0)),
-        einstein_radius_arcsec=Measurement(noisy(theta, err["einstein_radius_arcsec"]), err["einstein_radius_arcsec"]),
-        r_eff_arcsec=Measurement(noisy(obs.r_eff_arcsec.value, obs.r_eff_arcsec.sd), obs.r_eff_arcsec.sd),
-        sersic_index=Measurement(float(np.clip(noisy(v["sersic_index"], obs.sersic_index.sd), 0.5, 10.0)), obs.sersic_index.sd),
-        log10_mstar_msun=Measurement(noisy(mstar_ref, err["log10_mstar_msun"]), err["log10_mstar_msun"]),
+        z_source=Measurement(
+            noisy(truth.z_source, err.get("z_source", 0.0))
+            if err.get("z_source", 0) > 0
+            else truth.z_source,
+            err.get("z_source", 0.0),
+        ),
+        einstein_radius_arcsec=Measurement(
+            noisy(theta, err["einstein_radius_arcsec"]), err["einstein_radius_arcsec"]
+        ),
+        r_eff_arcsec=Measurement(
+            noisy(obs.r_eff_arcsec.value, obs.r_eff_arcsec.sd), obs.r_eff_arcsec.sd
+        ),
+        sersic_index=Measurement(
+            float(np.clip(noisy(v["sersic_index"], obs.sersic_index.sd), 0.5, 10.0)),
+            obs.sersic_index.sd,
+        ),
+        log10_mstar_msun=Measurement(
+            noisy(mstar_ref, err["log10_mstar_msun"]), err["log10_mstar_msun"]
+        ),
     )
     if kin is not None:
         sig = derived["sigma_aperture_kms"]
-        out = dataclasses.replace(out, kinematics=dataclasses.replace(kin, sigma_kms=Measurement(noisy(sig, err["sigma_kms"]), err["sigma_kms"])))
+        out = dataclasses.replace(
+            out,
+            kinematics=dataclasses.replace(
+                kin, sigma_kms=Measurement(noisy(sig, err["sigma_kms"]), err["sigma_kms"])
+            ),
+        )
     return out, {**{k: float(x) for k, x in params.items()}, **derived}
 
 

@@ -165,8 +165,8 @@ class ContractedHalo(SphericalProfile):
         inner_val = val + der * (u - uc)
         # Outer: the unresponsive halo, scaled to join at the last knot.
         u_out = jnp.maximum(u, u_hi)
-        outer_mass = self.outer_ratio * self.remaining_fraction * self.halo.enclosed_mass(
-            jnp.exp(u_out)
+        outer_mass = (
+            self.outer_ratio * self.remaining_fraction * self.halo.enclosed_mass(jnp.exp(u_out))
         )
         outer_val = jnp.log(outer_mass)
         outer_der = jax.jvp(

@@ -44,7 +44,9 @@ PRESCRIPTIONS = {
     "orbit_averaged": Prescription(
         "orbit_averaged", None, None, 1.0, "Gnedin et al. 2004 form with user A and w"
     ),
-    "power": Prescription("power", None, None, None, "Dutton, van den Bosch, Dekel & Courteau 2007, ApJ 654, 27"),
+    "power": Prescription(
+        "power", None, None, None, "Dutton, van den Bosch, Dekel & Courteau 2007, ApJ 654, 27"
+    ),
 }
 
 

@@ -29,7 +29,12 @@ def draw_prior(model, key, n_draws: int) -> dict:
 
     p, d, ll, lp = jax.jit(jax.vmap(one))(u)
     conv = lambda tree: {k: np.asarray(v) for k, v in tree.items()}  # noqa: E731
-    return {"params": conv(p), "derived": conv(d), "log_likelihood": conv(ll), "log_prior": np.asarray(lp)}
+    return {
+        "params": conv(p),
+        "derived": conv(d),
+        "log_likelihood": conv(ll),
+        "log_prior": np.asarray(lp),
+    }
 
 
 def initial_points(draws: dict, n_chains: int) -> dict:

@@ -58,7 +58,7 @@ def einstein_radius_kpc(components, sigma_crit, r_guess=None):
     too_big = g_hi >= 0.0
 
     def cond(state):
-        a, b, u, du, it = state
+        _, _, _, du, it = state
         return (jnp.abs(du) > TOL_LN_R) & (it < MAX_ITER)
 
     def step(state):
@@ -76,7 +76,11 @@ def einstein_radius_kpc(components, sigma_crit, r_guess=None):
     if r_guess is None:
         u0 = 0.5 * (lo + hi)
     else:
-        u0 = jnp.clip(jnp.log(jax.lax.stop_gradient(jnp.asarray(r_guess, dtype=jnp.float64))), lo + 1e-6, hi - 1e-6)
+        u0 = jnp.clip(
+            jnp.log(jax.lax.stop_gradient(jnp.asarray(r_guess, dtype=jnp.float64))),
+            lo + 1e-6,
+            hi - 1e-6,
+        )
     state = (lo, hi, u0, jnp.asarray(jnp.inf), jnp.asarray(0))
     _, _, u, _, _ = jax.lax.while_loop(cond, step, state)
     u = jax.lax.stop_gradient(u)

@@ -43,6 +43,23 @@ PARAMETERS = {
     "log10_r_anisotropy_reff": ("dex", "log10 of the Osipkov-Merritt radius in units of R_eff"),
 }
 
+#: Physically sensible ranges of the parameters (for checking truth files).
+PARAMETER_RANGES = {
+    "log10_m200c": (10.5, 16.0),
+    "log10_mstar_ref": (8.0, 13.0),
+    "log10_c200c": (-0.5, 1.7),
+    "log10_imf_factor": (-1.0, 1.5),
+    "inner_slope": (0.0, 2.5),
+    "response_nu": (-0.45, 3.0),
+    "slope": (1.05, 2.95),
+    "log10_m2d_5kpc": (8.0, 13.5),
+    "r_eff_kpc": (0.01, 200.0),
+    "sersic_index": (0.5, 10.0),
+    "z_source": (0.001, 20.0),
+    "anisotropy_beta": (-2.0, 0.95),
+    "log10_r_anisotropy_reff": (-1.5, 3.0),
+}
+
 #: Derived quantities recorded in every draw: name -> (unit, meaning).
 DERIVED_QUANTITIES = {
     "mstar_msun": ("Msun", "stellar mass M* = alpha_IMF M*_ref"),
@@ -51,7 +68,10 @@ DERIVED_QUANTITIES = {
     "c200c": ("", "halo concentration (NaN for a total power law)"),
     "galaxy_fraction": ("", "f_gal = M*(<r200c) / M200c"),
     "einstein_radius_arcsec": ("arcsec", "predicted Einstein radius"),
-    "projected_mass_einstein_msun": ("Msun", "total projected mass inside the predicted Einstein radius"),
+    "projected_mass_einstein_msun": (
+        "Msun",
+        "total projected mass inside the predicted Einstein radius",
+    ),
     "fdm_einstein": ("", "dark-matter fraction of the projected mass inside the Einstein radius"),
     "fdm_reff": ("", "dark-matter fraction of the 3-D mass inside R_eff"),
     "density_slope_einstein": (
@@ -150,7 +170,9 @@ class LensModel:
         obs = self.observation
         r_eff = self._value(params, "r_eff_kpc")
         n = self._value(params, "sersic_index")
-        mstar = 10.0 ** (self._value(params, "log10_mstar_ref") + self._value(params, "log10_imf_factor"))
+        mstar = 10.0 ** (
+            self._value(params, "log10_mstar_ref") + self._value(params, "log10_imf_factor")
+        )
         if obs.light_profile == "sersic":
             stars = Sersic(mstar, r_eff, n)
         else:
@@ -366,7 +388,9 @@ def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
             relation = m.name
 
             def mstar_prior(v, relation=relation):
-                med, scatter = stellar_mass_from_halo(10.0 ** v["log10_m200c"], z_l, relation, cosmo)
+                med, scatter = stellar_mass_from_halo(
+                    10.0 ** v["log10_m200c"], z_l, relation, cosmo
+                )
                 return Normal(jnp.log10(med), scatter)
 
             add(
@@ -386,7 +410,11 @@ def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
                 med = concentration(10.0 ** v["log10_m200c"], z_l, relation=rel, cosmology=cosmo)
                 return Normal(jnp.log10(med), scatter)
 
-            add("log10_c200c", c_prior, f"normal(concentration-mass relation {rel!r}, {scatter} dex)")
+            add(
+                "log10_c200c",
+                c_prior,
+                f"normal(concentration-mass relation {rel!r}, {scatter} dex)",
+            )
         else:
             add_simple("log10_c200c", c)
         if spec.halo_profile == "gnfw":
@@ -405,7 +433,9 @@ def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
     f = spec.imf_factor
     if f.kind == "imf":
         fixed["log10_imf_factor"] = float(
-            jnp.log10(imf_mass_factor(f.name, reference=observation.reference_imf, age_gyr=_AGE_GYR))
+            jnp.log10(
+                imf_mass_factor(f.name, reference=observation.reference_imf, age_gyr=_AGE_GYR)
+            )
         )
     else:
         add_simple("log10_imf_factor", f)
@@ -422,7 +452,9 @@ def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
     if n.fixed:
         fixed["sersic_index"] = n.value
     else:
-        prior = TruncatedNormal(n.value, n.sd, max(0.5, n.value - 8 * n.sd), min(10.0, n.value + 8 * n.sd))
+        prior = TruncatedNormal(
+            n.value, n.sd, max(0.5, n.value - 8 * n.sd), min(10.0, n.value + 8 * n.sd)
+        )
         add("sersic_index", lambda v, prior=prior: prior, prior.describe())
     zs = observation.z_source
     if zs.fixed:

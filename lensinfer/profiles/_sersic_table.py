@@ -35,7 +35,7 @@ from lensinfer._spline import second_derivative_operator
 
 __all__: list[str] = []
 
-U_LO, U_STEP, N_U = float(np.log(1e-5)), 0.05, int(round(np.log(1e9) / 0.05)) + 1
+U_LO, U_STEP, N_U = float(np.log(1e-5)), 0.05, round(np.log(1e9) / 0.05) + 1
 N_N = 193
 N_LO = float(np.log(0.45))  # the n axis is uniform in ln n
 N_STEP = float((np.log(10.05) - np.log(0.45)) / (N_N - 1))
@@ -78,7 +78,9 @@ def compute_knot_values(n_values=None):
 
     columns = jax.jit(jax.vmap(column))
     with jax.ensure_compile_time_eval():
-        chunks = [np.asarray(columns(jnp.asarray(c))) for c in np.array_split(n, max(1, n.size // 24))]
+        chunks = [
+            np.asarray(columns(jnp.asarray(c))) for c in np.array_split(n, max(1, n.size // 24))
+        ]
     return np.moveaxis(np.concatenate(chunks, axis=0), 0, -1)
 
 

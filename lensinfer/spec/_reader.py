@@ -12,11 +12,29 @@ __all__: list[str] = []
 _MISSING = object()
 
 
+def read_text(path: str, what: str) -> str:
+    """The text of ``path``; unreadable or non-UTF-8 files raise a SpecError."""
+    try:
+        with open(path, encoding="utf-8") as fh:
+            return fh.read()
+    except UnicodeDecodeError:
+        raise SpecError(
+            path, "", None, f"{what} in UTF-8 text", problem="is not UTF-8 text"
+        ) from None
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise SpecError(
+            path, "", None, f"a readable {what}", problem=f"cannot be read ({reason})"
+        ) from None
+
+
 def load_toml(text: str, path: str) -> dict:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise SpecError(path, "", None, "valid TOML (see https://toml.io)", problem=f"is not valid TOML: {exc}") from None
+        raise SpecError(
+            path, "", None, "valid TOML (see https://toml.io)", problem=f"is not valid TOML: {exc}"
+        ) from None
 
 
 class Table:
@@ -39,16 +57,14 @@ class Table:
     def has(self, name: str) -> bool:
         return name in self.data
 
-    def raw(self, name: str, default=_MISSING):
+    def raw(self, name: str, default=_MISSING, expected: str | None = None):
         self.used.add(name)
         if name not in self.data:
             if default is _MISSING:
-                raise SpecError(self.path, self.key(name), None, self._expected_for(name))
+                what = f"a value for '{name}'" + (f": {expected}" if expected else "")
+                raise SpecError(self.path, self.key(name), None, what)
             return default
         return self.data[name]
-
-    def _expected_for(self, name):
-        return f"a value for '{name}'"
 
     def table(self, name: str, required: bool = True) -> Table | None:
         if name not in self.data:
@@ -60,22 +76,32 @@ class Table:
         return Table(self.data[name], self.path, self.key(name))
 
     def number(self, name, default=_MISSING, *, positive=False, low=None, high=None, expected=None):
-        value = self.raw(name, default)
+        expected = expected or number_expected(positive, low, high)
+        value = self.raw(name, default, expected)
         if value is default and default is not _MISSING:
             return value
         return check_number(
-            value, self.path, self.key(name), positive=positive, low=low, high=high, expected=expected
+            value,
+            self.path,
+            self.key(name),
+            positive=positive,
+            low=low,
+            high=high,
+            expected=expected,
         )
 
     def string(self, name, choices=None, default=_MISSING):
-        value = self.raw(name, default)
+        exp_missing = f"one of {', '.join(map(repr, choices))}" if choices else "a string"
+        value = self.raw(name, default, exp_missing)
         if value is default and default is not _MISSING:
             return value
         if not isinstance(value, str):
             exp = f"one of {', '.join(map(repr, choices))}" if choices else "a string"
             raise SpecError(self.path, self.key(name), value, exp)
         if choices is not None and value not in choices:
-            raise SpecError(self.path, self.key(name), value, f"one of {', '.join(map(repr, choices))}")
+            raise SpecError(
+                self.path, self.key(name), value, f"one of {', '.join(map(repr, choices))}"
+            )
         return value
 
     def finish(self, accepted=None):
@@ -92,6 +118,20 @@ class Table:
             )
 
 
+def number_expected(positive=False, low=None, high=None) -> str:
+    """Plain words for a number's accepted range."""
+    if low is not None and high is not None:
+        return f"a number between {low} and {high}"
+    if positive and high is not None:
+        return f"a positive number up to {high}"
+    parts = ["a positive number" if positive else "a number"]
+    if low is not None:
+        parts.append(f">= {low}")
+    elif high is not None:
+        parts.append(f"<= {high}")
+    return " ".join(parts)
+
+
 def check_number(value, path, key, *, positive=False, low=None, high=None, expected=None):
     ok = isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
     if ok and positive and value <= 0:
@@ -101,14 +141,5 @@ def check_number(value, path, key, *, positive=False, low=None, high=None, expec
     if ok and high is not None and value > high:
         ok = False
     if not ok:
-        if expected is None:
-            parts = ["a positive number" if positive else "a number"]
-            if low is not None and high is not None:
-                parts = [f"a number between {low} and {high}"]
-            elif low is not None:
-                parts.append(f">= {low}")
-            elif high is not None:
-                parts.append(f"<= {high}")
-            expected = " ".join(parts)
-        raise SpecError(path, key, value, expected)
+        raise SpecError(path, key, value, expected or number_expected(positive, low, high))
     return float(value)

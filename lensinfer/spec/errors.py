@@ -30,7 +30,7 @@ class SpecError(ValueError):
     def _message(self) -> str:
         where = f"{self.path}: " + (f"key '{self.key}'" if self.key else "file")
         if self.problem:
-            what = self.problem
+            what = self.problem if self.value is None else f"{self.problem} (value {self.value!r})"
         elif self.value is None:
             what = "is missing"
         else:

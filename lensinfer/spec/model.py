@@ -5,7 +5,7 @@ from __future__ import annotations
 import dataclasses
 import os
 
-from lensinfer.spec._reader import Table, load_toml
+from lensinfer.spec._reader import Table, load_toml, read_text
 from lensinfer.spec.errors import SpecError
 
 __all__ = [
@@ -99,9 +99,9 @@ def _prior(table: Table, name: str, *, allow=("uniform", "normal"), relations=()
     if "fixed" in allow:
         forms.append("a number (fixed)")
     if relations:
-        forms.append(f'{{ relation = <one of {", ".join(map(repr, relations))}> }}')
+        forms.append(f"{{ relation = <one of {', '.join(map(repr, relations))}> }}")
     if imfs:
-        forms.append(f'{{ imf = <one of {", ".join(map(repr, imfs))}> }}')
+        forms.append(f"{{ imf = <one of {', '.join(map(repr, imfs))}> }}")
     expected = " or ".join(forms)
     if isinstance(raw, (int, float)) and not isinstance(raw, bool) and "fixed" in allow:
         return PriorSpec("fixed", value=table.number(name))
@@ -112,8 +112,22 @@ def _prior(table: Table, name: str, *, allow=("uniform", "normal"), relations=()
         rel = sub.string("relation", choices=tuple(relations))
         low = sub.number("low", default=None)
         high = sub.number("high", default=None)
-        if (low is None) != (high is None) or (low is not None and high <= low):
-            raise SpecError(table.path, key + ".high", high, f"both low and high, with high > low = {low}")
+        if low is None and high is not None:
+            raise SpecError(
+                table.path,
+                key + ".low",
+                None,
+                "both low and high (or neither): a lower bound 'low' beside 'high'",
+            )
+        if high is None and low is not None:
+            raise SpecError(
+                table.path,
+                key + ".high",
+                None,
+                "both low and high (or neither): an upper bound 'high' beside 'low'",
+            )
+        if low is not None and high <= low:
+            raise SpecError(table.path, key + ".high", high, f"a number with high > low = {low}")
         sub.finish(["relation", "low", "high"])
         return PriorSpec("relation", low=low, high=high, name=rel)
     if sub.has("imf") and imfs:
@@ -168,8 +182,14 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
     stars.finish(["imf_factor", "log10_mstar_ref"])
 
     has_halo, has_total = top.has("halo"), top.has("total")
-    if has_halo == has_total:
-        raise SpecError(path, "halo", None, "exactly one of a [halo] section (stars + dark matter) or a [total] section (a total-mass power law)")
+    one_of = (
+        "exactly one of a [halo] section (stars + dark matter) or a [total] section "
+        "(a total-mass power law)"
+    )
+    if has_halo and has_total:
+        raise SpecError(path, "total", None, one_of, problem="is given together with [halo]")
+    if not has_halo and not has_total:
+        raise SpecError(path, "halo", None, one_of)
     halo_profile = m200 = c200 = gamma = prescription = nu = slope = m2d = None
     if has_halo:
         mass_model = "decomposition"
@@ -186,7 +206,13 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         else:
             halo.finish(["profile", "log10_m200c", "log10_c200c"])
         if m200.kind == "relation" and mstar_ref is not None:
-            raise SpecError(path, "stars.log10_mstar_ref", "(a prior)", f"no explicit prior: the stellar-to-halo relation {m200.name!r} already links M*_ref to M200c")
+            raise SpecError(
+                path,
+                "stars.log10_mstar_ref",
+                stars.data["log10_mstar_ref"],
+                f"no explicit prior: the stellar-to-halo relation {m200.name!r} already "
+                "links M*_ref to M200c",
+            )
         if m200.kind == "relation" and m200.low is None:
             m200 = dataclasses.replace(m200, low=11.5, high=15.0)
         if m200.kind != "relation" and mstar_ref is None:
@@ -215,7 +241,10 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
     kin = top.table("kinematics", required=False)
     if kin is not None:
         kinematics = _parse_kinematics(kin)
-    top.finish(["model", "stars", "halo", "total", "response", "kinematics"])
+    if mass_model == "decomposition":
+        top.finish(["model", "stars", "halo", "response", "kinematics"])
+    else:
+        top.finish(["model", "stars", "total", "kinematics"])
     return ModelSpec(
         name=name,
         summary=summary,
@@ -254,7 +283,14 @@ def _parse_kinematics(kin: Table) -> dict:
         out["log10_r_anisotropy_reff"] = _prior(
             kin, "log10_r_anisotropy_reff", allow=("uniform", "normal", "fixed")
         )
-        _check_range(kin.path, kin.key("log10_r_anisotropy_reff"), out["log10_r_anisotropy_reff"], -1.5, 3.0, "log10 r_a/R_eff")
+        _check_range(
+            kin.path,
+            kin.key("log10_r_anisotropy_reff"),
+            out["log10_r_anisotropy_reff"],
+            -1.5,
+            3.0,
+            "log10 r_a/R_eff",
+        )
         kin.finish(["use", "anisotropy", "log10_r_anisotropy_reff"])
     else:
         kin.finish(["use", "anisotropy"])
@@ -292,11 +328,12 @@ def read_model(path_or_name) -> ModelSpec:
         builtin = builtin_model_path(path)
         if builtin is None:
             names = ", ".join(builtin_model_names())
-            raise SpecError(path, "", None, f"an existing model file or a built-in model name ({names})", problem="is neither a file nor a built-in model")
+            raise SpecError(
+                path,
+                "",
+                None,
+                f"an existing model file or a built-in model name ({names})",
+                problem="is neither a file nor a built-in model",
+            )
         path = builtin
-    try:
-        with open(path, encoding="utf-8") as fh:
-            text = fh.read()
-    except OSError as exc:
-        raise SpecError(path, "", None, "a readable model file", problem=f"cannot be read ({exc.strerror})") from None
-    return parse_model(text, path)
+    return parse_model(read_text(path, "model file"), path)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import dataclasses
 import os
 
-from lensinfer.spec._reader import Table, load_toml
+from lensinfer.spec._reader import Table, load_toml, read_text
 from lensinfer.spec.errors import SpecError
 
 __all__ = ["Kinematics", "Measurement", "Observation", "parse_observation", "read_observation"]
@@ -96,7 +96,7 @@ def _measurement(table: Table, name: str, *, positive=True, allow_fixed=True, lo
     raise SpecError(table.path, key, raw, expected)
 
 
-def _cosmology_name(table: Table) -> str:
+def cosmology_name(table: Table) -> str:
     name = table.string("cosmology", default="Planck18")
     from astropy.cosmology import realizations
 
@@ -113,7 +113,9 @@ def parse_observation(text: str, path: str = "<string>") -> Observation:
 
     system = top.table("system")
     name = system.string("name", default=os.path.splitext(os.path.basename(path))[0])
-    z_lens = system.number("z_lens", positive=True, high=20.0, expected="a redshift > 0")
+    z_lens = system.number(
+        "z_lens", positive=True, high=20.0, expected="a redshift > 0 and up to 20"
+    )
     z_source_raw = system.raw("z_source")
     if isinstance(z_source_raw, dict):
         sub = Table(z_source_raw, path, "system.z_source")
@@ -122,12 +124,22 @@ def parse_observation(text: str, path: str = "<string>") -> Observation:
         sub.finish(["mean", "sd"])
         z_source = Measurement(z_s, sd)
     else:
-        z_source = Measurement(system.number("z_source", positive=True, expected="a redshift > 0, or { mean = <z>, sd = <positive number> }"), 0.0)
+        z_source = Measurement(
+            system.number(
+                "z_source",
+                positive=True,
+                expected="a redshift > 0, or { mean = <z>, sd = <positive number> }",
+            ),
+            0.0,
+        )
     if z_source.value <= z_lens:
         raise SpecError(
-            path, "system.z_source", z_source.value, f"a source redshift larger than z_lens = {z_lens}"
+            path,
+            "system.z_source",
+            z_source.value,
+            f"a source redshift larger than z_lens = {z_lens}",
         )
-    cosmology = _cosmology_name(system)
+    cosmology = cosmology_name(system)
     system.finish(["name", "z_lens", "z_source", "cosmology"])
 
     ring = top.table("ring")
@@ -179,9 +191,4 @@ def parse_observation(text: str, path: str = "<string>") -> Observation:
 def read_observation(path) -> Observation:
     """Read and validate an observation file (TOML); raises :class:`SpecError`."""
     path = os.fspath(path)
-    try:
-        with open(path, encoding="utf-8") as fh:
-            text = fh.read()
-    except OSError as exc:
-        raise SpecError(path, "", None, "a readable observation file", problem=f"cannot be read ({exc.strerror})") from None
-    return parse_observation(text, path)
+    return parse_observation(read_text(path, "observation file"), path)
