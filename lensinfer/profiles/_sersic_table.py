@@ -68,7 +68,6 @@ def compute_knot_values(n_values=None):
 
     n = knot_indices() if n_values is None else np.asarray(n_values, dtype=float)
     u = U_LO + U_STEP * np.arange(N_U)
-    n = np.exp(N_LO + N_STEP * np.arange(N_N))
     x = jnp.asarray(np.exp(u))
 
     def column(n_val):
