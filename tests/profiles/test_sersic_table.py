@@ -17,12 +17,18 @@ def test_shipped_knot_values_match_a_fresh_computation():
     # Three columns recomputed with the quadrature; the file was written by the
     # same code, so agreement is at round-off.  XLA vectorises a batch of 3
     # columns differently from the batches of 24 used for the file, which moves
-    # ln rho by up to ~1e-9 far out (x > 1e3, n = 0.45); 1e-8 absolute in the
-    # logs (1e-8 relative in the values) still catches any real change.
+    # ln rho by up to ~1e-9 for x <= 1e3.  (Beyond, for n < 0.5, ln rho is a
+    # difference of numbers ~1e8 and carries 1e-8 noise: irrelevant, since rho
+    # there is exp(-1e8); those knots are left out.)  1e-8 absolute in the logs
+    # still catches any real change.
     shipped = np.load(table.DATA_PATH)
     cols = [0, 96, table.N_N - 1]
     fresh = table.compute_knot_values(table.knot_indices()[cols])
-    np.testing.assert_allclose(fresh, shipped[:, :, cols], rtol=0, atol=1e-8)
+    u = table.U_LO + table.U_STEP * np.arange(table.N_U)
+    inner = np.exp(u) <= 1e3
+    np.testing.assert_allclose(
+        fresh[:, inner], shipped[:, :, cols][:, inner], rtol=0, atol=1e-8
+    )
 
 
 @pytest.mark.parametrize("seed", [0, 1])
