@@ -18,7 +18,7 @@ them takes 2-8 s of compilation and evaluation; regenerate them with
 quadrature (a test recomputes sample columns and compares them with the file).  Between the knots a bicubic Hermite
 patch uses derivatives from not-a-knot cubic splines along each axis, so the
 interpolant is C^1 in (ln x, n) (NUTS needs continuous gradients) with an
-interpolation error of order h^4: measured below 1e-7 relative in mu and
+interpolation error of order h^4: measured below 3e-7 relative in mu and
 1e-6 in nu over 1e-2 <= x <= 1e2, 0.5 <= n <= 10 (tests check it against the
 direct quadrature).  Outside the tabulated x range ln mu and ln nu continue
 linearly in ln x; n outside [0.45, 10.05] gives NaN.

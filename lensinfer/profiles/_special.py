@@ -10,10 +10,11 @@ import jax.numpy as jnp
 __all__: list[str] = []
 
 #: Half-width of the window around x = 1 inside which Taylor series replace the
-#: closed forms.  The closed forms below lose at most ~1e-16 / d^2 relative
-#: accuracy at distance d from 1 (two orders of cancellation), i.e. 1e-12 at
-#: d = 1e-2, while the degree-5 series truncation error there is ~1e-12 too.
-NEAR_ONE = 1.0e-2
+#: closed forms.  The closed forms lose up to ~1e-16 / d^3 relative accuracy at
+#: distance d from 1 (the Hernquist surface density cancels to third order),
+#: i.e. ~1e-12 at d = 5e-2, while the degree-10 series truncation error there
+#: is ~0.2 d^11 ~ 1e-15.
+NEAR_ONE = 5.0e-2
 
 
 def safe_where(cond, x, fill):
@@ -29,15 +30,19 @@ def polyval_ascending(coeffs, d):
     return out
 
 
-# Taylor coefficients of F(x) about x = 1 (from sympy, verified in the tests).
+# Taylor coefficients of F(x) about x = 1, to d^10 (sympy; verified in the tests).
 _F_SERIES = (
     1.0,
-    -2.0 / 3.0,
-    7.0 / 15.0,
-    -12.0 / 35.0,
-    83.0 / 315.0,
-    -146.0 / 693.0,
-    523.0 / 3003.0,
+    -0.6666666666666666,
+    0.4666666666666667,
+    -0.34285714285714286,
+    0.2634920634920635,
+    -0.2106782106782107,
+    0.17415917415917415,
+    -0.14794094794094795,
+    0.12844279903103434,
+    -0.11347290480417416,
+    0.10165376419246389,
 )
 
 
@@ -82,5 +87,5 @@ def near_one(x, direct, series):
     x = jnp.asarray(x, dtype=jnp.float64)
     d = x - 1.0
     near = jnp.abs(d) < NEAR_ONE
-    x_safe = safe_where(near, 2.0, x)
+    x_safe = jnp.where(near, 2.0, x)  # the closed form never sees the window
     return jnp.where(near, polyval_ascending(series, d), direct(x_safe))

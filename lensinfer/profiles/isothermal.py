@@ -93,12 +93,14 @@ class CoredIsothermal(SphericalProfile):
     def enclosed_mass(self, r):
         r = as_float(r)
         rc = self.core_radius
-        # r - rc arctan(r/rc) loses digits for r << rc; use the series there.
+        # r - rc arctan(r/rc) loses ~1e-16/x^2 relative for x = r/rc << 1; below
+        # x = 0.1 use x - arctan x = sum_k (-1)^(k+1) x^(2k+1) / (2k+1) to x^23.
         x = r / rc
-        small = x < 1e-3
+        small = x < 0.1
         xs = jnp.where(small, 1.0, x)
         big = rc * (xs - jnp.arctan(xs))
-        series = rc * x**3 * (1.0 / 3.0 - x**2 / 5.0 + x**4 / 7.0)
+        xz = jnp.where(small, x, 0.0)
+        series = rc * sum((-1.0) ** (k + 1) * xz ** (2 * k + 1) / (2 * k + 1) for k in range(1, 12))
         return 2.0 * self.sigma**2 / G * jnp.where(small, series, big)
 
     def surface_density(self, R):

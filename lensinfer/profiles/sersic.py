@@ -108,12 +108,12 @@ class Sersic(SphericalProfile):
     n : float
         Sérsic index (0.5 <= n <= 10 is the validated range).
     b_n : float, optional
-        Leave unset: :func:`sersic_b` of n, computed at construction.
+        Ignored: always :func:`sersic_b` of n, computed at construction.
     deprojection : {"table", "quadrature"}
         How the 3-D density and enclosed mass are evaluated: ``"table"``
         (default) interpolates a table of the quadrature computed once per
         process (:mod:`lensinfer.profiles._sersic_table`; relative error below
-        1e-7 in mass and 1e-6 in density, ~50x faster, n within
+        3e-7 in mass and 1e-6 in density, ~50x faster, n within
         [0.45, 10.05], NaN outside); ``"quadrature"`` evaluates the
         deprojection integrals directly.  Projected quantities are exact either way.
     """
@@ -125,10 +125,11 @@ class Sersic(SphericalProfile):
     b_n: jax.Array = None
 
     def __post_init__(self):
-        # b_n is computed once at construction (five incomplete-gamma Newton
-        # steps) and then carried as a leaf, so loops that evaluate the
-        # profile many times (root finds) do not recompute it.
-        if self.b_n is None and isinstance(self.n, (int, float, np.ndarray, jax.Array)):
+        # b_n is computed from n at every construction (also when JAX rebuilds
+        # the pytree, so it always follows n and gradients flow through n), and
+        # then read by every method, so loops that evaluate the profile many
+        # times (root finds) do not recompute it.
+        if isinstance(self.n, (int, float, np.ndarray, jax.Array)):
             object.__setattr__(self, "b_n", sersic_b(self.n))
         if self.deprojection not in ("table", "quadrature"):
             raise ValueError(

@@ -26,9 +26,7 @@ def test_shipped_knot_values_match_a_fresh_computation():
     fresh = table.compute_knot_values(table.knot_indices()[cols])
     u = table.U_LO + table.U_STEP * np.arange(table.N_U)
     inner = np.exp(u) <= 1e3
-    np.testing.assert_allclose(
-        fresh[:, inner], shipped[:, :, cols][:, inner], rtol=0, atol=1e-8
-    )
+    np.testing.assert_allclose(fresh[:, inner], shipped[:, :, cols][:, inner], rtol=0, atol=1e-8)
 
 
 @pytest.mark.parametrize("seed", [0, 1])
