@@ -17,8 +17,9 @@ __all__ = ["ContractedHalo", "ScaledProfile", "contract_halo"]
 
 #: The response grid: final radii from GRID_LO to GRID_HI times r200c, uniform
 #: in ln r.  0.01–10 R_eff of a massive lens lies at ~1e-4–0.1 r200c, deep
-#: inside; the test ``test_grid_convergence`` shows that widening the grid or
-#: doubling its density changes the masses by < 1e-6.
+#: inside; the tests ``test_grid_convergence`` and ``test_grid_ends_do_not_matter``
+#: show that widening the grid or doubling its density changes the masses by
+#: < 1e-6 for nu >= 0 (every named prescription) and < 3e-5 for -0.3 <= nu < 0.
 GRID_LO = 1.0e-6
 GRID_HI = 10.0
 GRID_N = 96
@@ -87,7 +88,8 @@ def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
         F(x) = \ln r_f - x + \nu \ln\left[\frac{M_{gal}(\bar r_f)}{M_i(\bar r_i)}
                + 1 - f\right] = 0,
 
-    which is strictly decreasing in x for nu > -1/2 (unique root).  Newton
+    which is strictly decreasing in x for nu > -1/2 (unique root); see
+    :func:`contract_halo` for the validated range nu >= -0.3.  Newton
     steps run on gradient-stopped inputs, then one Newton step on the live
     inputs gives the exact implicit derivative with respect to every halo,
     galaxy and response parameter.
@@ -254,8 +256,9 @@ def contract_halo(
     is taken as conserved, :math:`M_{DM,f}(\bar r_f) = (1 - f)M_i(\bar r_i)`
     (Gnedin et al. 2004, eq. 2 and section 3).  nu = 0 is no response, nu = 1
     is Blumenthal et al. (1986), nu < 0 expands the halo (Dutton et al. 2007,
-    section 2.3); nu must exceed -1/2 for the shells not to cross where the
-    galaxy dominates.  The response is applied at all radii; beyond r200c,
+    section 2.3).  The validated range is nu >= -0.3: below about -0.4 the
+    shells cross at the centre of a concentrated Sérsic galaxy (the dark-matter
+    density turns negative), and the solution is no longer a physical halo.  The response is applied at all radii; beyond r200c,
     where the enclosed initial mass exceeds M200c, it is a slight expansion.
 
     Parameters

@@ -50,7 +50,7 @@ PARAMETER_RANGES = {
     "log10_c200c": (-0.5, 1.7),
     "log10_imf_factor": (-1.0, 1.5),
     "inner_slope": (0.0, 2.5),
-    "response_nu": (-0.45, 3.0),
+    "response_nu": (-0.3, 3.0),
     "slope": (1.05, 2.95),
     "log10_m2d_5kpc": (8.0, 13.5),
     "r_eff_kpc": (0.01, 200.0),

@@ -221,7 +221,7 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         prescription = response.string("prescription", choices=PRESCRIPTIONS)
         if prescription == "power":
             nu = _prior(response, "response_nu")
-            _check_range(path, "response.response_nu", nu, -0.45, 3.0, "a response index nu")
+            _check_range(path, "response.response_nu", nu, -0.3, 3.0, "a response index nu")
             response.finish(["prescription", "response_nu"])
         else:
             response.finish(["prescription"])

@@ -50,7 +50,7 @@ log10_c200c = { prior = "normal", mean = 0.8, sd = 0.1 }
 
 [response]
 prescription = "power"
-response_nu = { prior = "uniform", low = -0.4, high = 1.5 }
+response_nu = { prior = "uniform", low = -0.3, high = 1.5 }
 """
 
 #: A valid spec whose halo mass is tied to M*_ref by a stellar-to-halo relation.

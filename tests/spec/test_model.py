@@ -33,7 +33,7 @@ HALO_PROFILE = 'profile = "nfw"'
 M200 = 'log10_m200c = { prior = "uniform", low = 12.0, high = 14.5 }'
 C200 = 'log10_c200c = { prior = "normal", mean = 0.8, sd = 0.1 }'
 PRESCRIPTION = 'prescription = "power"'
-NU = 'response_nu = { prior = "uniform", low = -0.4, high = 1.5 }'
+NU = 'response_nu = { prior = "uniform", low = -0.3, high = 1.5 }'
 HALO_BLOCK = f"[halo]\n{HALO_PROFILE}\n{M200}\n{C200}\n"
 RESPONSE_BLOCK = f"[response]\n{PRESCRIPTION}\n{NU}\n"
 TOTAL_BLOCK = """\
@@ -151,7 +151,7 @@ def test_decomposition_spec_parses(model_text):
     assert spec.log10_c200c == PriorSpec("normal", mean=0.8, sd=0.1)
     assert spec.inner_slope is None
     assert spec.prescription == "power"
-    assert spec.response_nu == PriorSpec("uniform", low=-0.4, high=1.5)
+    assert spec.response_nu == PriorSpec("uniform", low=-0.3, high=1.5)
     assert spec.slope is None and spec.log10_m2d_5kpc is None
     assert spec.kinematics == {}
     assert spec.text == model_text
@@ -485,7 +485,7 @@ BAD = {
         [(NU, 'response_nu = { prior = "uniform", low = -1.0, high = 1.5 }')],
         "response.response_nu",
         -1.0,
-        "a response index nu between -0.45 and 3.0",
+        "a response index nu between -0.3 and 3.0",
     ),
     "inner-slope-out-of-range": (
         "model",
@@ -702,7 +702,7 @@ UNKNOWN = {
         "model",
         [(PRESCRIPTION, 'prescription = "gnedin04"')],
         "response.response_nu",
-        {"prior": "uniform", "low": -0.4, "high": 1.5},
+        {"prior": "uniform", "low": -0.3, "high": 1.5},
         "'prescription'",
     ),
     "inside-uniform-prior": (
