@@ -15,10 +15,10 @@ __all__ = ["sample"]
 
 
 def _resolve(model, observation):
-    from lensinfer.model import LensModel, build_model
+    from lensinfer.model import SystemModel, build_model
     from lensinfer.spec import ModelSpec, Observation, read_model, read_observation
 
-    if isinstance(model, LensModel):
+    if isinstance(model, SystemModel):
         return model
     spec = model if isinstance(model, ModelSpec) else read_model(model)
     obs = observation if isinstance(observation, Observation) else read_observation(observation)
@@ -45,10 +45,10 @@ def sample(
 
     Parameters
     ----------
-    model : str, path, ModelSpec or LensModel
+    model : str, path, ModelSpec or SystemModel
         A built-in model's name, a model file, a parsed spec, or a built model.
     observation : str, path or Observation
-        Not needed when ``model`` is a LensModel.
+        Not needed when ``model`` is a SystemModel.
     chains, warmup, draws : int
         Number of chains, warm-up (adaptation) steps and kept draws per chain.
     seed : int

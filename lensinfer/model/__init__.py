@@ -4,7 +4,7 @@ from lensinfer.model.lens_model import (
     DERIVED_QUANTITIES,
     LIKELIHOOD_SITES,
     PARAMETERS,
-    LensModel,
+    SystemModel,
     build_model,
 )
 from lensinfer.model.priors import Normal, TruncatedNormal, Uniform
@@ -13,7 +13,7 @@ __all__ = [
     "DERIVED_QUANTITIES",
     "LIKELIHOOD_SITES",
     "PARAMETERS",
-    "LensModel",
+    "SystemModel",
     "Normal",
     "TruncatedNormal",
     "Uniform",

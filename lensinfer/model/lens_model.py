@@ -1,6 +1,6 @@
 """A validated model spec plus an observation, turned into a numpyro model.
 
-The physics of one draw lives in :meth:`LensModel.derive`, a pure JAX function
+The physics of one draw lives in :meth:`SystemModel.derive`, a pure JAX function
 of the sampled parameters; the numpyro model, the mock-data generator and the
 evidence code all call it, so they cannot drift apart.
 """
@@ -22,7 +22,7 @@ __all__ = [
     "DERIVED_QUANTITIES",
     "LIKELIHOOD_SITES",
     "PARAMETERS",
-    "LensModel",
+    "SystemModel",
     "build_model",
 ]
 
@@ -113,7 +113,7 @@ class ParameterPlan:
 
 
 @dataclasses.dataclass(frozen=True)
-class LensModel:
+class SystemModel:
     """A model spec applied to one observation.
 
     Attributes
@@ -362,8 +362,8 @@ def _cosmology_for(observation: Observation) -> Cosmology:
     return Cosmology.from_astropy(getattr(realizations, observation.cosmology))
 
 
-def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
-    """Turn a validated model spec and observation into a :class:`LensModel`."""
+def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
+    """Turn a validated model spec and observation into a :class:`SystemModel`."""
     from lensinfer.halo import concentration, concentration_scatter_dex, stellar_mass_from_halo
     from lensinfer.stellar import imf_mass_factor
 
@@ -463,7 +463,7 @@ def build_model(spec: ModelSpec, observation: Observation) -> LensModel:
         prior = TruncatedNormal(zs.value, zs.sd, z_l + 0.05, zs.value + 8 * zs.sd)
         add("z_source", lambda v, prior=prior: prior, prior.describe())
 
-    return LensModel(
+    return SystemModel(
         spec=spec,
         observation=observation,
         cosmology=cosmo,
