@@ -180,12 +180,10 @@ def pointwise_log_likelihood(lens, samples) -> dict:
     """
     from lensinfer.model.lens_model import _normal_logpdf
 
-    values = lens.observed_values()
-    sds = lens.observed_sds()
     out = {}
-    for name, key in lens.predicted_keys().items():
+    for site, (key, m) in lens.likelihood_sites().items():
         pred = samples[key] if key in samples else lens.fixed[key]
-        out[name] = np.asarray(_normal_logpdf(values[name], np.asarray(pred), sds[name]))
+        out[site] = np.asarray(_normal_logpdf(m.value, np.asarray(pred), m.sd))
     return out
 
 

@@ -165,6 +165,7 @@ class SystemModel:
     def build_profiles(self, params):
         """(stars, dark_matter, halo, extras) profiles for one draw."""
         from lensinfer.contraction import contract_halo
+        from lensinfer.halo import radius_from_mass
         from lensinfer.profiles import NFW, GeneralizedNFW, Hernquist, PowerLaw, Sersic
 
         obs = self.observation
@@ -192,9 +193,7 @@ class SystemModel:
             halo = GeneralizedNFW.from_m200c(
                 m200, c200, self._value(params, "inner_slope"), z_l, self.cosmology
             )
-        r200 = (3.0 * m200 / (4.0 * jnp.pi * 200.0 * self.cosmology.critical_density(z_l))) ** (
-            1.0 / 3.0
-        )
+        r200 = radius_from_mass(m200, z_l, "200c", self.cosmology)
         kwargs = {}
         if self.spec.prescription == "power":
             kwargs["response_index"] = self._value(params, "response_nu")
@@ -258,53 +257,41 @@ class SystemModel:
         raise NotImplementedError("kinematics are not available in this version")
 
     # ---------------------------------------------------------- likelihood
+    def likelihood_sites(self) -> dict:
+        """Site name -> (the sampled or derived quantity it measures, its Measurement).
+
+        The one table of observed quantities; the log-likelihood terms, the
+        numpyro observed sites and the results file's groups all read it.
+        """
+        obs = self.observation
+        sites = {
+            "einstein_radius": ("einstein_radius_arcsec", obs.einstein_radius_arcsec),
+            "stellar_mass": ("log10_mstar_ref", obs.log10_mstar_msun),
+        }
+        if self.uses_kinematics:
+            sites["velocity_dispersion"] = ("sigma_aperture_kms", obs.kinematics.sigma_kms)
+        return sites
+
+    def _predicted(self, params, derived, key):
+        return derived[key] if key in derived else self._value(params, key)
+
     def log_likelihood_terms(self, params, derived=None) -> dict:
         """Gaussian log-likelihood of each observed quantity (one entry per site)."""
-        obs = self.observation
         d = self.derive(params) if derived is None else derived
-        terms = {
-            "einstein_radius": _normal_logpdf(
-                obs.einstein_radius_arcsec.value,
-                d["einstein_radius_arcsec"],
-                obs.einstein_radius_arcsec.sd,
-            ),
-            "stellar_mass": _normal_logpdf(
-                obs.log10_mstar_msun.value,
-                self._value(params, "log10_mstar_ref"),
-                obs.log10_mstar_msun.sd,
-            ),
+        return {
+            site: _normal_logpdf(m.value, self._predicted(params, d, key), m.sd)
+            for site, (key, m) in self.likelihood_sites().items()
         }
-        if self.uses_kinematics:
-            k = obs.kinematics.sigma_kms
-            terms["velocity_dispersion"] = _normal_logpdf(k.value, d["sigma_aperture_kms"], k.sd)
-        return terms
 
     def observed_values(self) -> dict:
-        obs = self.observation
-        out = {
-            "einstein_radius": obs.einstein_radius_arcsec.value,
-            "stellar_mass": obs.log10_mstar_msun.value,
-        }
-        if self.uses_kinematics:
-            out["velocity_dispersion"] = obs.kinematics.sigma_kms.value
-        return out
+        return {site: m.value for site, (_, m) in self.likelihood_sites().items()}
 
     def observed_sds(self) -> dict:
-        obs = self.observation
-        out = {
-            "einstein_radius": obs.einstein_radius_arcsec.sd,
-            "stellar_mass": obs.log10_mstar_msun.sd,
-        }
-        if self.uses_kinematics:
-            out["velocity_dispersion"] = obs.kinematics.sigma_kms.sd
-        return out
+        return {site: m.sd for site, (_, m) in self.likelihood_sites().items()}
 
     def predicted_keys(self) -> dict:
         """Likelihood site -> the sampled or derived quantity it compares with."""
-        out = {"einstein_radius": "einstein_radius_arcsec", "stellar_mass": "log10_mstar_ref"}
-        if self.uses_kinematics:
-            out["velocity_dispersion"] = "sigma_aperture_kms"
-        return out
+        return {site: key for site, (key, _) in self.likelihood_sites().items()}
 
     def log_prior(self, params):
         """Sum of the prior log densities (in the sampled parameters)."""
@@ -323,29 +310,17 @@ class SystemModel:
         import numpyro
         import numpyro.distributions as dist
 
-        obs = self.observation
         params = {}
         for p in self.plan:
             params[p.name] = numpyro.sample(p.name, p.prior(params).distribution())
         d = self.derive(params)
         for name, value in d.items():
             numpyro.deterministic(name, value)
-        numpyro.sample(
-            "einstein_radius",
-            dist.Normal(d["einstein_radius_arcsec"], obs.einstein_radius_arcsec.sd),
-            obs=obs.einstein_radius_arcsec.value if observed else None,
-        )
-        numpyro.sample(
-            "stellar_mass",
-            dist.Normal(self._value(params, "log10_mstar_ref"), obs.log10_mstar_msun.sd),
-            obs=obs.log10_mstar_msun.value if observed else None,
-        )
-        if self.uses_kinematics:
-            k = obs.kinematics.sigma_kms
+        for site, (key, m) in self.likelihood_sites().items():
             numpyro.sample(
-                "velocity_dispersion",
-                dist.Normal(d["sigma_aperture_kms"], k.sd),
-                obs=k.value if observed else None,
+                site,
+                dist.Normal(self._predicted(params, d, key), m.sd),
+                obs=m.value if observed else None,
             )
 
     def __call__(self):
