@@ -48,3 +48,24 @@ def evaluate(u, u0, h, y, m):
     val = omt * y0 + t * y1 + h**2 / 6.0 * ((omt**3 - omt) * m0 + (t**3 - t) * m1)
     der = (y1 - y0) / h + h / 6.0 * (-(3.0 * omt**2 - 1.0) * m0 + (3.0 * t**2 - 1.0) * m1)
     return val, der
+
+
+def evaluate_many(u, u0, h, y, m):
+    """Spline value at many points u (last axis), without the derivative.
+
+    Same cubic as :func:`evaluate`, but the interval's end values are picked
+    with a one-hot matrix product instead of an indexed gather: reverse-mode
+    differentiation of a gather is a scatter-add, which on XLA's CPU backend
+    made the gradient of a 48-node projection cost 175 us instead of 46 us
+    (measured).  Use it for fixed-size node sets (quadratures), not inside
+    loops over single points.
+    """
+    n = y.shape[-1]
+    s = (u - u0) / h
+    k = jnp.clip(jnp.floor(s), 0, n - 2)
+    t = s - k
+    onehot = (k[..., None] == jnp.arange(n - 1, dtype=k.dtype)).astype(y.dtype)
+    y0, y1 = onehot @ y[:-1], onehot @ y[1:]
+    m0, m1 = onehot @ m[:-1], onehot @ m[1:]
+    omt = 1.0 - t
+    return omt * y0 + t * y1 + h**2 / 6.0 * ((omt**3 - omt) * m0 + (t**3 - t) * m1)

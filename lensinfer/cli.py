@@ -41,7 +41,10 @@ def _add_sampling_options(p, chains=4, warmup=1000, draws=1000):
     )
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
     p.add_argument(
-        "--target-accept", type=float, default=0.8, help="NUTS target acceptance (default 0.8)"
+        "--target-accept",
+        type=float,
+        default=0.95,
+        help="NUTS target acceptance (default 0.95)",
     )
     p.add_argument(
         "--max-tree-depth", type=int, default=10, help="NUTS maximum tree depth (default 10)"

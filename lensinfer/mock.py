@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 import os
 
+import jax
 import numpy as np
 
 from lensinfer.spec import Measurement, Observation, SpecError
@@ -171,7 +172,8 @@ def make_mock(spec, truth: Truth, *, noise: bool = False, seed: int = 0):
             )
         else:
             params[name] = v[name]
-    derived = {k: float(x) for k, x in lens.derive(params).items()}
+    # Jitted: an eager run of a contraction model dispatches thousands of small ops.
+    derived = {k: float(x) for k, x in jax.jit(lens.derive)(params).items()}
     rng = np.random.default_rng(seed)
 
     def noisy(value, sd):

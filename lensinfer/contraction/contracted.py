@@ -204,7 +204,13 @@ class ContractedHalo(SphericalProfile):
         t = jnp.concatenate([t1, t2], axis=-1)
         w = jnp.concatenate([w1, w2], axis=-1)
         r = R[..., None] * jnp.cosh(t)
-        dm = self.enclosed_mass(r) - q * self.halo.enclosed_mass(r)
+        # Every node lies on the grid (t <= t_hi) or below it (the inner power
+        # law, r < 1e-6 r200c: negligible mass), so the spline alone is used.
+        u = jnp.maximum(jnp.log(r), self.log_r0)
+        m_spline = jnp.exp(
+            _spline.evaluate_many(u, self.log_r0, _GRID_H, self.log_mass, self.log_mass_d2)
+        )
+        dm = m_spline - q * self.halo.enclosed_mass(r)
         return base + jnp.sum(w * dm / jnp.cosh(t) ** 2, axis=-1)
 
     def surface_density(self, R):

@@ -34,7 +34,7 @@ def sample(
     seed: int = 0,
     *,
     dense_mass: bool = True,
-    target_accept: float = 0.8,
+    target_accept: float = 0.95,
     max_tree_depth: int = 10,
     prior_draws: int = 500,
     progress: bool = True,
@@ -57,8 +57,11 @@ def sample(
         Adapt a dense mass matrix (default; the stellar-mass/dark-matter
         degeneracy makes the posterior strongly correlated) or a diagonal one.
     target_accept : float
-        NUTS target acceptance probability (raise towards 0.95 if there are
-        divergences).
+        NUTS target acceptance probability. The default 0.95 (numpyro's is
+        0.8) is measured: lensing alone leaves a thin curved ridge of
+        stellar versus dark mass that runs into the alpha_IMF prior bound,
+        and on the demo lens 4 x (1000 + 1000) draws gave 91 divergences at
+        0.8, 9 at 0.9 and 5 at 0.95, with about twice the leapfrog steps.
     max_tree_depth : int
         Maximum NUTS tree depth.
     prior_draws : int
@@ -106,6 +109,8 @@ def sample(
     )
     t0 = time.perf_counter()
     mcmc.run(k_mcmc, init_params=init_params, extra_fields=("energy", "diverging", "num_steps"))
+    # The run is dispatched asynchronously: wait for the draws before timing it.
+    jax.block_until_ready(mcmc.get_samples(group_by_chain=True))
     wall = time.perf_counter() - t0
 
     options = dict(

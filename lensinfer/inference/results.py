@@ -16,6 +16,11 @@ def _atomic_path(path):
     d = os.path.dirname(os.path.abspath(path)) or "."
     fd, tmp = tempfile.mkstemp(prefix=".tmp-", suffix=os.path.splitext(path)[1], dir=d)
     os.close(fd)
+    # mkstemp makes the file private (0600); give it the mode a plainly
+    # created file would have under the user's umask.
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)
     return tmp
 
 
@@ -78,8 +83,11 @@ def summarize(dt) -> dict:
             "ess_bulk": _float(ess_bulk[v]),
             "ess_tail": _float(ess_tail[v]),
         }
-    stats = dt.sample_stats.to_dataset()
-    div = int(np.asarray(stats["diverging"].values).sum()) if "diverging" in stats else 0
+    div = 0
+    if "sample_stats" in dt.children:
+        stats = dt.sample_stats.to_dataset()
+        if "diverging" in stats:
+            div = int(np.asarray(stats["diverging"].values).sum())
     return {
         "model": dt.attrs.get("model_name"),
         "observation": dt.attrs.get("observation_name"),

@@ -35,7 +35,10 @@ PARAMETERS = {
     "inner_slope": ("", "inner logarithmic density slope of a generalized NFW halo"),
     "response_nu": ("", "halo response index nu of r_f / r_i = (M_i / M_f)^nu"),
     "slope": ("", "3-D logarithmic slope of a power-law total density"),
-    "log10_m2d_5kpc": ("dex(Msun)", "log10 of the power-law total projected mass inside 5 kpc"),
+    "theta_e_arcsec": (
+        "arcsec",
+        "Einstein radius of the total power law (its normalisation: M_2D(<R_E) = pi Sigma_cr R_E^2)",
+    ),
     "r_eff_kpc": ("kpc", "effective (projected half-light) radius of the lens galaxy"),
     "sersic_index": ("", "Sersic index of the lens galaxy's light"),
     "z_source": ("", "source redshift (photometric: marginalised over)"),
@@ -52,7 +55,7 @@ PARAMETER_RANGES = {
     "inner_slope": (0.0, 2.5),
     "response_nu": (-0.3, 3.0),
     "slope": (1.05, 2.95),
-    "log10_m2d_5kpc": (8.0, 13.5),
+    "theta_e_arcsec": (0.05, 10.0),
     "r_eff_kpc": (0.01, 200.0),
     "sersic_index": (0.5, 10.0),
     "z_source": (0.001, 20.0),
@@ -179,10 +182,18 @@ class SystemModel:
         else:
             stars = Hernquist(mstar, r_eff / 1.8153)  # R_eff = 1.8153 a (Hernquist 1990)
         if self.spec.mass_model == "total_power_law":
+            # Normalised by its own Einstein radius, the parameter the ring
+            # measures almost directly: the lensing constraint is then
+            # axis-aligned in (theta_E, slope) instead of a curved ridge.
+            from lensinfer.lensing import critical_surface_density
+
             gamma = self._value(params, "slope")
-            m5 = 10.0 ** self._value(params, "log10_m2d_5kpc")
-            unit = PowerLaw(1.0, 5.0, gamma)
-            total = PowerLaw(m5 / unit.projected_mass(5.0), 5.0, gamma)
+            sigma_cr = critical_surface_density(
+                obs.z_lens, self._value(params, "z_source"), self.cosmology
+            )
+            r_e = self._value(params, "theta_e_arcsec") * self.kpc_per_arcsec
+            unit = PowerLaw(1.0, r_e, gamma)
+            total = PowerLaw(jnp.pi * sigma_cr * r_e**2 / unit.projected_mass(r_e), r_e, gamma)
             return stars, None, None, {"total": total}
         z_l = obs.z_lens
         m200 = 10.0 ** self._value(params, "log10_m200c")
@@ -402,7 +413,7 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
     else:
         add_simple("log10_mstar_ref", spec.log10_mstar_ref)
         add_simple("slope", spec.slope)
-        add_simple("log10_m2d_5kpc", spec.log10_m2d_5kpc)
+        add_simple("theta_e_arcsec", spec.theta_e_arcsec)
 
     # --- the IMF factor
     f = spec.imf_factor

@@ -62,7 +62,7 @@ class ModelSpec:
         Halo response.
     response_nu : PriorSpec or None
         Prior on nu for "power".
-    slope, log10_m2d_5kpc : PriorSpec or None
+    slope, theta_e_arcsec : PriorSpec or None
         Total-mass power-law parameters.
     kinematics : dict
         Kinematics options (anisotropy); empty when not enabled.
@@ -81,7 +81,7 @@ class ModelSpec:
     prescription: str | None
     response_nu: PriorSpec | None
     slope: PriorSpec | None
-    log10_m2d_5kpc: PriorSpec | None
+    theta_e_arcsec: PriorSpec | None
     kinematics: dict
     text: str
     path: str
@@ -190,7 +190,7 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         raise SpecError(path, "total", None, one_of, problem="is given together with [halo]")
     if not has_halo and not has_total:
         raise SpecError(path, "halo", None, one_of)
-    halo_profile = m200 = c200 = gamma = prescription = nu = slope = m2d = None
+    halo_profile = m200 = c200 = gamma = prescription = nu = slope = theta_e = None
     if has_halo:
         mass_model = "decomposition"
         halo = top.table("halo")
@@ -231,9 +231,11 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         total.string("profile", choices=TOTAL_PROFILES)
         slope = _prior(total, "slope")
         _check_range(path, "total.slope", slope, 1.05, 2.95, "a 3-D density slope")
-        m2d = _prior(total, "log10_m2d_5kpc")
-        _check_range(path, "total.log10_m2d_5kpc", m2d, 8.0, 13.5, "log10 M_2D(<5 kpc)/Msun")
-        total.finish(["profile", "slope", "log10_m2d_5kpc"])
+        theta_e = _prior(total, "theta_e_arcsec")
+        _check_range(
+            path, "total.theta_e_arcsec", theta_e, 0.05, 10.0, "an Einstein radius in arcsec"
+        )
+        total.finish(["profile", "slope", "theta_e_arcsec"])
         if mstar_ref is None:
             mstar_ref = PriorSpec("uniform", low=9.5, high=12.8)
 
@@ -258,7 +260,7 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         prescription=prescription,
         response_nu=nu,
         slope=slope,
-        log10_m2d_5kpc=m2d,
+        theta_e_arcsec=theta_e,
         kinematics=kinematics,
         text=text,
         path=str(path),

@@ -81,7 +81,7 @@ imf_factor = { prior = "normal", mean = 0.1, sd = 0.1 }
 [total]
 profile = "power_law"
 slope = { prior = "uniform", low = 1.5, high = 2.6 }
-log10_m2d_5kpc = { prior = "uniform", low = 10.0, high = 12.5 }
+theta_e_arcsec = { prior = "uniform", low = 0.2, high = 4.0 }
 """
 
 

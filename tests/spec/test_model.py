@@ -40,7 +40,7 @@ TOTAL_BLOCK = """\
 [total]
 profile = "power_law"
 slope = { prior = "uniform", low = 1.5, high = 2.6 }
-log10_m2d_5kpc = { prior = "uniform", low = 10.0, high = 12.5 }
+theta_e_arcsec = { prior = "uniform", low = 0.2, high = 4.0 }
 """
 RELATION = 'log10_m200c = { relation = "moster13", low = 11.5, high = 15.0 }'
 
@@ -152,7 +152,7 @@ def test_decomposition_spec_parses(model_text):
     assert spec.inner_slope is None
     assert spec.prescription == "power"
     assert spec.response_nu == PriorSpec("uniform", low=-0.3, high=1.5)
-    assert spec.slope is None and spec.log10_m2d_5kpc is None
+    assert spec.slope is None and spec.theta_e_arcsec is None
     assert spec.kinematics == {}
     assert spec.text == model_text
     assert spec.path == PATH
@@ -202,7 +202,7 @@ def test_total_power_law_spec_parses(total_model_text):
     assert spec.mass_model == "total_power_law"
     assert spec.halo_profile is None and spec.prescription is None
     assert spec.slope == PriorSpec("uniform", low=1.5, high=2.6)
-    assert spec.log10_m2d_5kpc == PriorSpec("uniform", low=10.0, high=12.5)
+    assert spec.theta_e_arcsec == PriorSpec("uniform", low=0.2, high=4.0)
     assert spec.log10_mstar_ref == PriorSpec("uniform", low=9.5, high=12.8)
 
 

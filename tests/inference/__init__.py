@@ -1,0 +1,1 @@
+"""Tests of lensinfer.inference (a package, so module names cannot clash across folders)."""
