@@ -264,8 +264,36 @@ class SystemModel:
             out["sigma_aperture_kms"] = self.predict_dispersion(params, stars, total)
         return out
 
-    def predict_dispersion(self, params, stars, total):  # pragma: no cover - kinematics issue
-        raise NotImplementedError("kinematics are not available in this version")
+    def anisotropy(self, params):
+        """The stars' orbital anisotropy model for one draw (lensinfer.dynamics)."""
+        from lensinfer.dynamics import ConstantAnisotropy, Isotropic, OsipkovMerritt
+
+        kind = self.spec.kinematics.get("anisotropy", "isotropic")
+        if kind == "constant":
+            return ConstantAnisotropy(self._value(params, "anisotropy_beta"))
+        if kind == "osipkov_merritt":
+            r_eff = self._value(params, "r_eff_kpc")
+            return OsipkovMerritt(r_eff * 10.0 ** self._value(params, "log10_r_anisotropy_reff"))
+        return Isotropic()
+
+    def predict_dispersion(self, params, stars, total):
+        """Luminosity-weighted aperture velocity dispersion (km/s) of the stars.
+
+        Spherical Jeans equation for the stars (the light profile as tracer) in
+        the total potential, projected and averaged over the observation's
+        circular aperture convolved with its Gaussian seeing (see
+        :func:`lensinfer.dynamics.aperture_dispersion`).
+        """
+        from lensinfer.dynamics import aperture_dispersion
+
+        kin = self.observation.kinematics
+        return aperture_dispersion(
+            total,
+            stars,
+            kin.aperture_radius_arcsec * self.kpc_per_arcsec,
+            kin.seeing_fwhm_arcsec * self.kpc_per_arcsec,
+            anisotropy=self.anisotropy(params),
+        )
 
     # ---------------------------------------------------------- likelihood
     def likelihood_sites(self) -> dict:
@@ -448,6 +476,21 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
     else:
         prior = TruncatedNormal(zs.value, zs.sd, z_l + 0.05, zs.value + 8 * zs.sd)
         add("z_source", lambda v, prior=prior: prior, prior.describe())
+
+    # --- orbital anisotropy of the stars (only when kinematics are used)
+    if spec.kinematics.get("use") and observation.kinematics is not None:
+        kind = spec.kinematics.get("anisotropy", "isotropic")
+        key = {
+            "constant": ("anisotropy_beta", "beta"),
+            "osipkov_merritt": ("log10_r_anisotropy_reff", "log10_r_anisotropy_reff"),
+        }.get(kind)
+        if key is not None:
+            name, spec_key = key
+            p = spec.kinematics[spec_key]
+            if p.kind == "fixed":
+                fixed[name] = p.value
+            else:
+                add_simple(name, p)
 
     return SystemModel(
         spec=spec,

@@ -4,15 +4,17 @@ Each case makes a noisy mock observation (seeded) from chosen parameter values
 with :func:`lensinfer.mock.make_mock`, samples it with the matching built-in
 model, and checks behaviour a user relies on:
 
-* convergence: rank-normalised split R-hat below 1.02 and a bulk ESS of
-  at least 50 per chain for every sampled parameter.  These are looser than
-  the final-run thresholds of Vehtari, Gelman, Simpson, Carpenter & Buerkner
-  (2021, Bayesian Analysis 16, 667; R-hat < 1.01, ESS > 100 per chain),
-  which the reports apply, because these runs are ten times shorter than a
-  real one: measured on the contracted case at 4 x (800 + 400), R-hat 1.012
-  and bulk ESS 424 for alpha_IMF, whose posterior is a lensing-only ridge
-  ending on its prior bound;
-* few divergent transitions (see the tolerance below);
+* convergence by the final-run thresholds of Vehtari, Gelman, Simpson,
+  Carpenter & Buerkner (2021, Bayesian Analysis 16, 667): rank-normalised
+  split R-hat below 1.01 and a bulk ESS above 100 per chain for every
+  sampled parameter, and no divergent transition -- for the uncontracted and
+  power-law lenses.  The contracted, lensing-only lens is held to R-hat <
+  1.02, ESS > 50 per chain and at most 1% divergent draws: its alpha_IMF
+  posterior is a ridge of stellar versus dark mass that ends on the prior
+  bound, and short runs mix slowly along it (measured at 4 x (800 + 400):
+  R-hat 1.012 and ESS 424 for alpha_IMF, 3 divergences at target_accept
+  0.95; at 0.99 no divergence but R-hat 1.015).  With kinematics the ridge
+  closes (tests/dynamics);
 * 95% credible intervals that cover the true projected mass inside the
   Einstein radius, the true SED stellar mass and the true stellar mass.
 
@@ -93,22 +95,21 @@ log10_mstar_msun = 0.1
 """
 
 CASES = {
-    # case: (model, truth, noise seed, warm-up steps)
-    "gnedin04-contracted": ("gnedin04", CONTRACTED, 11, 800),
-    "no-response-photo-z": ("no-response", UNCONTRACTED_PHOTO_Z, 11, 600),
-    "power-law-total": ("power-law-total", POWER_LAW, 11, 400),
+    # case: (model, truth, noise seed, warm-up steps, strict thresholds)
+    "gnedin04-contracted": ("gnedin04", CONTRACTED, 11, 800, False),
+    "no-response-photo-z": ("no-response", UNCONTRACTED_PHOTO_Z, 11, 600, True),
+    "power-law-total": ("power-law-total", POWER_LAW, 11, 400, True),
 }
 
-# Divergences: at most 1% of the kept draws.  A handful can occur where the
-# lensing-only ridge of stellar versus dark mass meets the alpha_IMF prior
-# bound (measured on the demo lens: 5 in 4000 at target_accept 0.95); more
-# than 1% means a geometry problem a user would have to act on.
-MAX_DIVERGENT_FRACTION = 0.01
+# Thresholds (module docstring): (max R-hat, min bulk ESS per chain, max
+# fraction of divergent draws).
+STRICT = (1.01, 100, 0.0)
+RIDGE = (1.02, 50, 0.01)
 
 
 @pytest.fixture(scope="module", params=sorted(CASES))
 def fitted(request):
-    model_name, truth_text, noise_seed, warmup = CASES[request.param]
+    model_name, truth_text, noise_seed, warmup, strict = CASES[request.param]
     spec = read_model(model_name)
     truth = parse_truth(truth_text, f"<{request.param}>")
     obs, true_values = make_mock(spec, truth, noise=True, seed=noise_seed)
@@ -124,7 +125,7 @@ def fitted(request):
     dt = sample(
         lens, chains=CHAINS, warmup=warmup, draws=DRAWS, seed=1, progress=False, prior_draws=200
     )
-    return request.param, lens, dt, true_values
+    return request.param, lens, dt, true_values, STRICT if strict else RIDGE
 
 
 def _interval(dt, name, prob):
@@ -136,29 +137,28 @@ def _interval(dt, name, prob):
 def test_converged(fitted):
     import arviz as az
 
-    case, lens, dt, _ = fitted
+    case, lens, dt, _, (max_rhat, min_ess, _) = fitted
     names = lens.parameter_names
     rhat = az.rhat(dt, var_names=names)
     ess = az.ess(dt, var_names=names, method="bulk")
     for n in names:
         r = float(rhat.posterior[n].values) if hasattr(rhat, "posterior") else float(rhat[n])
         e = float(ess.posterior[n].values) if hasattr(ess, "posterior") else float(ess[n])
-        # Short-run thresholds (module docstring): R-hat < 1.02, ESS > 50 per chain.
-        assert r < 1.02, f"{case}: R-hat of {n} is {r:.4f}"
-        assert e > 50 * CHAINS, f"{case}: bulk ESS of {n} is {e:.0f}"
+        assert r < max_rhat, f"{case}: R-hat of {n} is {r:.4f}"
+        assert e > min_ess * CHAINS, f"{case}: bulk ESS of {n} is {e:.0f}"
 
 
 def test_few_divergences(fitted):
-    case, _, dt, _ = fitted
+    case, _, dt, _, (_, _, max_fraction) = fitted
     n_div = int(np.asarray(dt.sample_stats["diverging"].values).sum())
-    assert n_div <= MAX_DIVERGENT_FRACTION * CHAINS * DRAWS, f"{case}: {n_div} divergences"
+    assert n_div <= max_fraction * CHAINS * DRAWS, f"{case}: {n_div} divergences"
 
 
 @pytest.mark.parametrize(
     "quantity", ["projected_mass_einstein_msun", "log10_mstar_ref", "mstar_msun"]
 )
 def test_truth_inside_95_percent_interval(fitted, quantity):
-    case, _, dt, true_values = fitted
+    case, _, dt, true_values, _ = fitted
     lo, hi = _interval(dt, quantity, 0.95)
     assert lo <= true_values[quantity] <= hi, (
         f"{case}: true {quantity} = {true_values[quantity]:.5g} outside [{lo:.5g}, {hi:.5g}]"
@@ -169,7 +169,7 @@ def test_predicted_einstein_radius_matches_measurement(fitted):
     # The Einstein radius is the tightest datum: the posterior of the predicted
     # value must sit on the measurement, within its 1-sigma error (the prior
     # cannot pull it further, since every other constraint is weaker).
-    case, lens, dt, _ = fitted
+    case, lens, dt, _, _ = fitted
     m = lens.observation.einstein_radius_arcsec
     pred = np.asarray(dt.posterior["einstein_radius_arcsec"].values).ravel()
     assert abs(np.median(pred) - m.value) < m.sd, case
@@ -177,7 +177,7 @@ def test_predicted_einstein_radius_matches_measurement(fitted):
 
 
 def test_all_groups_present(fitted):
-    _, lens, dt, _ = fitted
+    _, lens, dt, _, _ = fitted
     for group in (
         "posterior",
         "prior",
