@@ -84,6 +84,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--noise", action="store_true", help="add noise drawn from the stated errors")
     p.add_argument("--seed", type=int, default=0, help="seed of the noise (default 0)")
 
+    p = sub.add_parser("report", help="write the posterior report of a results file")
+    p.add_argument("results", help="a results file written by 'lensinfer sample' (.nc)")
+    p.add_argument("-o", "--output-dir", required=True, help="directory for the report")
+
     p = sub.add_parser("models", help="list the built-in model specs")
 
     p = sub.add_parser("demo", help="run the whole job on the invented demo lens")
@@ -264,6 +268,34 @@ def _print_headline(summary: dict):
     print(f"  max R-hat {worst:.4f}, min bulk ESS {low_ess:.0f}")
 
 
+def _write_report(results, output_dir) -> str:
+    from lensinfer.report import report
+
+    path = report(results, output_dir)
+    print(f"report: {os.path.abspath(path)}")
+    return path
+
+
+def _cmd_report(args) -> int:
+    if not os.path.isfile(args.results):
+        raise ValueError(f"{args.results}: results file does not exist")
+    try:
+        from lensinfer.inference import read_results
+
+        dt = read_results(args.results)
+    except (OSError, ValueError) as exc:
+        raise ValueError(
+            f"{args.results}: cannot be read as a lensinfer results file (netCDF): {exc}"
+        ) from None
+    if "posterior" not in dt.children or "model_text" not in dt.attrs:
+        raise ValueError(
+            f"{args.results}: not a lensinfer results file (needs a posterior group and "
+            "the model and observation texts in its attributes)"
+        )
+    _write_report(dt, args.output_dir)
+    return 0
+
+
 def _cmd_demo(args, argv) -> int:
     _check_sampling_args(args)
     os.makedirs(args.output_dir, exist_ok=True)
@@ -277,6 +309,7 @@ def _cmd_demo(args, argv) -> int:
     print(f"results: {os.path.abspath(out)}")
     print(f"summary: {os.path.abspath(summary_path(out))}")
     _print_headline(summary)
+    _write_report(out, os.path.join(args.output_dir, "report"))
     return 0
 
 
@@ -299,6 +332,8 @@ def main(argv: list[str] | None = None) -> int:
             return _cmd_mock(args)
         if args.command == "models":
             return _cmd_models()
+        if args.command == "report":
+            return _cmd_report(args)
         if args.command == "demo":
             return _cmd_demo(args, argv)
     except SpecError as exc:

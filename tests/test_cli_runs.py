@@ -50,6 +50,10 @@ def test_demo_writes_into_its_directory(capsys, tmp_path):
     status = main(["demo", "--output-dir", str(outdir), "--model", "power-law-total", *SMALL])
     stdout, stderr = capsys.readouterr()
     assert status == 0, stderr
-    assert sorted(os.listdir(outdir)) == ["demo-results.nc", "demo-results.summary.json"]
+    assert sorted(os.listdir(outdir)) == ["demo-results.nc", "demo-results.summary.json", "report"]
     assert "invented" in stdout
     assert "f_DM inside the Einstein radius" in stdout
+    # The demo ends by writing the report and printing its path.
+    report_html = os.path.join(os.path.abspath(outdir), "report", "report.html")
+    assert stdout.rstrip().splitlines()[-1] == f"report: {report_html}"
+    assert os.path.isfile(report_html)
