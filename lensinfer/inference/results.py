@@ -103,6 +103,21 @@ def _float(x):
     return v if math.isfinite(v) else None
 
 
+def write_bytes(data: bytes, path) -> str:
+    """Write bytes to ``path`` atomically (temporary file in the same directory, rename)."""
+    path = os.fspath(path)
+    tmp = _atomic_path(path)
+    try:
+        with open(tmp, "wb") as fh:
+            fh.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+        raise
+    return path
+
+
 def write_summary(summary: dict, path) -> str:
     """Write the JSON summary atomically."""
     path = os.fspath(path)

@@ -6,7 +6,6 @@ import base64
 import html
 import json
 import os
-import tempfile
 
 import numpy as np
 
@@ -119,22 +118,6 @@ def _sites(lens):
     }
 
 
-def _write_atomic(path, data: bytes):
-    d = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=d)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
-
-
 def report(results, output_dir, *, n_profile_draws: int = 200) -> str:
     """Write the report of a results file (path or DataTree) into ``output_dir``.
 
@@ -144,6 +127,7 @@ def report(results, output_dir, *, n_profile_draws: int = 200) -> str:
     path of ``report.html``.  Nothing is written if the results cannot be read.
     """
     from lensinfer.inference import read_results
+    from lensinfer.inference.results import write_bytes
     from lensinfer.report import figures
     from lensinfer.report.profiles import model_from_results, profile_bands
 
@@ -289,5 +273,5 @@ E-BFMI per chain {", ".join(f"{b:.2f}" for b in diag.bfmi) or "n/a"};
         "report.html": page.encode(),
     }
     for name, data in files.items():
-        _write_atomic(os.path.join(output_dir, name), data)
+        write_bytes(data, os.path.join(output_dir, name))
     return os.path.join(output_dir, "report.html")
