@@ -277,8 +277,12 @@ def _write_report(results, output_dir) -> str:
 
 
 def _cmd_report(args) -> int:
+    if os.path.isdir(args.results):
+        raise ValueError(f"{args.results}: is a directory, not a results file")
     if not os.path.isfile(args.results):
         raise ValueError(f"{args.results}: results file does not exist")
+    if os.path.exists(args.output_dir) and not os.path.isdir(args.output_dir):
+        raise ValueError(f"{args.output_dir}: exists and is not a directory (-o wants a directory)")
     try:
         from lensinfer.inference import read_results
 
@@ -287,12 +291,18 @@ def _cmd_report(args) -> int:
         raise ValueError(
             f"{args.results}: cannot be read as a lensinfer results file (netCDF): {exc}"
         ) from None
-    if "posterior" not in dt.children or "model_text" not in dt.attrs:
+    if "posterior" not in dt.children or not {"model_text", "observation_text"} <= set(dt.attrs):
         raise ValueError(
             f"{args.results}: not a lensinfer results file (needs a posterior group and "
             "the model and observation texts in its attributes)"
         )
-    _write_report(dt, args.output_dir)
+    from lensinfer.report.profiles import model_from_results
+
+    model_from_results(dt, args.results)  # embedded spec problems: SpecError, exit 2
+    try:
+        _write_report(args.results, args.output_dir)
+    except ValueError as exc:  # a failure inside the report is ours, not bad input
+        raise RuntimeError(f"writing the report of {args.results} failed: {exc}") from exc
     return 0
 
 

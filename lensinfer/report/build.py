@@ -37,6 +37,27 @@ MAIN_CORNER = (
 )
 
 
+# Parameters whose prior is their own measurement (photometry, photo-z).
+_MEASURED = ("r_eff_kpc", "sersic_index", "z_source")
+
+
+def _imf_note(dt, lens, imfs) -> str:
+    ref = lens.observation.reference_imf
+    if "log10_imf_factor" not in dt.posterior.data_vars:
+        return f"alpha_IMF is fixed by the model (see the model file; reference IMF {ref})."
+    names = ", ".join(imfs) if imfs else "none of the named IMFs"
+    note = f"Named IMFs inside the 95% interval of alpha_IMF: {names} (relative to {ref}, 10 Gyr)."
+    prior_w = (
+        _width(np.asarray(dt.prior["log10_imf_factor"].values, float).ravel())
+        if "prior" in dt.children and "log10_imf_factor" in dt.prior.data_vars
+        else None
+    )
+    post_w = _width(np.asarray(dt.posterior["log10_imf_factor"].values, float).ravel())
+    if prior_w and post_w / prior_w > PRIOR_DOMINATED_RATIO:
+        note += " alpha_IMF is prior-dominated in this run, so this list restates the prior."
+    return note
+
+
 def _width(x):
     lo, hi = np.percentile(x, [16, 84])
     return hi - lo
@@ -51,7 +72,13 @@ def assumptions(dt, lens) -> list[str]:
             continue
         pw = _width(np.asarray(dt.prior[name].values, float).ravel())
         qw = _width(np.asarray(post[name].values, float).ravel())
-        if pw > 0 and qw / pw > PRIOR_DOMINATED_RATIO:
+        if pw > 0 and qw / pw > PRIOR_DOMINATED_RATIO and name in _MEASURED:
+            out.append(
+                f"`{name}` is constrained only by its own measurement: its posterior is "
+                f"{100 * qw / pw:.0f}% as wide as the measurement prior "
+                f"({lens.prior_descriptions().get(name, '')}); the lens adds nothing to it."
+            )
+        elif pw > 0 and qw / pw > PRIOR_DOMINATED_RATIO:
             out.append(
                 f"`{name}` is prior-dominated: its posterior 68% width is "
                 f"{100 * qw / pw:.0f}% of the prior's (threshold "
@@ -64,8 +91,10 @@ def assumptions(dt, lens) -> list[str]:
         rho = float(np.corrcoef(a, f)[0, 1])
         out.append(
             "Stellar-mass / dark-matter degeneracy: alpha_IMF and f_DM(<R_E) have a "
-            f"posterior correlation of {rho:+.2f}. The ring fixes their sum inside R_E; "
-            "how the total is split depends on "
+            f"posterior correlation of {rho:+.2f}"
+            + (" (strong)" if abs(rho) > 0.7 else " (weak)" if abs(rho) < 0.3 else "")
+            + ". The ring fixes the total projected mass inside R_E; how it is split "
+            "between stars and dark matter depends on "
             + (
                 "the velocity dispersion and the priors."
                 if lens.uses_kinematics
@@ -84,18 +113,22 @@ def assumptions(dt, lens) -> list[str]:
                 f"In {100 * neg:.1f}% of the draws the stars outweigh the total power law "
                 "inside R_E (negative dark matter): the total-mass model does not forbid it."
             )
+    shapes = (
+        "a free power-law slope, which the ring alone does not measure"
+        if lens.spec.mass_model == "total_power_law"
+        else "the assumed profile shapes (Sersic stars, NFW-family halo)"
+    )
     out.append(
         "Mass-sheet degeneracy: a ring constrains the projected mass inside R_E, not the "
-        "profile's slope there; lensinfer's spherical models fix the slope through the "
-        "assumed profile shapes (Sersic stars, NFW-family halo), so the density slope "
+        f"profile's slope there; here the slope comes from {shapes}, so the density slope "
         "and any quantity away from R_E inherit that assumption"
         + (", partly tested by the velocity dispersion." if lens.uses_kinematics else ".")
     )
     if lens.spec.prescription not in (None, "power"):
         out.append(
-            f"The halo response is fixed to '{lens.spec.prescription}'; compare "
-            "hypotheses (`lensinfer compare`) or sample nu (`free-response`) before "
-            "concluding about contraction."
+            f"The halo response is fixed to '{lens.spec.prescription}'; fit the other "
+            "built-in hypotheses (no-response, blumenthal86, gnedin04, gnedin11) or sample "
+            "nu (free-response) before concluding about contraction."
         )
     if lens.uses_kinematics:
         out.append(
@@ -131,8 +164,9 @@ def report(results, output_dir, *, n_profile_draws: int = 200) -> str:
     from lensinfer.report import figures
     from lensinfer.report.profiles import model_from_results, profile_bands
 
+    source = os.fspath(results) if isinstance(results, (str, os.PathLike)) else "<results>"
     dt = read_results(results) if isinstance(results, (str, os.PathLike)) else results
-    lens = model_from_results(dt)
+    lens = model_from_results(dt, source)
     diag = diagnose_run(dt)
     rows = quantity_rows(dt)
     names = sampled_names(dt)
@@ -162,8 +196,13 @@ def report(results, output_dir, *, n_profile_draws: int = 200) -> str:
     }
     notes = assumptions(dt, lens)
     imfs = consistent_imfs(dt, reference=lens.observation.reference_imf)
+    imf_note = _imf_note(dt, lens, imfs)
     md_table = to_markdown(rows)
-    tex = to_latex(rows, caption=f"Posterior of model {lens.spec.name} for {lens.observation.name}")
+    tex = to_latex(
+        rows,
+        caption=f"Posterior of model {lens.spec.name} for {lens.observation.name}",
+        imfs=imf_note,
+    )
 
     summary_md = "\n".join(
         [
@@ -173,9 +212,7 @@ def report(results, output_dir, *, n_profile_draws: int = 200) -> str:
             *(f"- {a}" for a in diag.advice),
             "",
             md_table,
-            "Named IMFs inside the 95% interval of alpha_IMF: "
-            + (", ".join(imfs) if imfs else "none")
-            + f" (relative to {lens.observation.reference_imf}, 10 Gyr).",
+            imf_note,
             "",
             "## Assumptions that drive this result",
             *(f"- {s}" for s in notes),
@@ -251,10 +288,9 @@ E-BFMI per chain {", ".join(f"{b:.2f}" for b in diag.bfmi) or "n/a"};
 {diag_table()}
 <h2>Posterior</h2>
 {rows_html()}
-<p>Named IMFs inside the 95% interval of alpha_IMF: {html.escape(", ".join(imfs) or "none")}
-(relative to {html.escape(lens.observation.reference_imf)}, 10 Gyr).</p>
+<p>{html.escape(imf_note)}</p>
 <h2>Assumptions that drive this result</h2>
-<ul>{"".join(f"<li>{html.escape(s)}</li>" for s in notes)}</ul>
+<ul>{"".join(f"<li>{html.escape(s.replace('`', ''))}</li>" for s in notes)}</ul>
 <h2>Figures</h2>
 {figs_html}
 <h2>Model file</h2><pre>{html.escape(dt.attrs.get("model_text", ""))}</pre>
@@ -266,8 +302,11 @@ E-BFMI per chain {", ".join(f"{b:.2f}" for b in diag.bfmi) or "n/a"};
     files = {
         "table.md": md_table.encode(),
         "table.tex": tex.encode(),
-        "table.json": to_json(rows).encode(),
-        "diagnostics.json": json.dumps(diag.as_dict(), indent=2).encode(),
+        "table.json": json.dumps(
+            {"quantities": json.loads(to_json(rows)), "named_imfs": imfs, "imf_note": imf_note},
+            indent=2,
+        ).encode(),
+        "diagnostics.json": json.dumps(diag.as_dict(), indent=2, allow_nan=False).encode(),
         "summary.md": summary_md.encode(),
         **{name: data for name, (_, data) in pngs.items()},
         "report.html": page.encode(),

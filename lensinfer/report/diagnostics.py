@@ -3,8 +3,8 @@
 Thresholds (stated in every report):
 
 - rank-normalised split R-hat < 1.01 and bulk and tail ESS > 100 per chain
-  (Vehtari, Gelman, Simpson, Carpenter & Buerkner 2021, Bayesian Analysis
-  16, 667, section 4 -- from memory of the paper's recommendations);
+  (Vehtari, Gelman, Simpson, Carpenter & Buerkner 2021, "Rank-normalization,
+  folding, and localization: an improved R-hat", Bayesian Analysis 16, 667);
 - no divergent transition (Betancourt 2017, arXiv:1701.02434, section 6.2);
 - E-BFMI > 0.3 per chain (Betancourt 2016, arXiv:1604.00695; the 0.3
   threshold is common practice, used by Stan's diagnostics);
@@ -39,6 +39,7 @@ class Diagnostics:
     divergence_locations: dict  # name -> {"divergent_median", "all_median", "shift_sd"}
     bfmi: list
     tree_depth_fraction: float
+    not_checked: tuple  # checks whose sampler statistics the run does not hold
     chains: int
     draws: int
     failed: tuple  # names of the failed checks
@@ -51,15 +52,27 @@ class Diagnostics:
     @property
     def verdict(self) -> str:
         if self.converged:
-            return "converged"
+            extra = f" (not checked: {', '.join(self.not_checked)})" if self.not_checked else ""
+            return "converged" + extra
         return "not converged: " + "; ".join(self.failed)
 
     def as_dict(self) -> dict:
-        d = dataclasses.asdict(self)
+        """JSON-ready: NaN values become None."""
+        d = _no_nan(dataclasses.asdict(self))
         d["converged"] = self.converged
         d["verdict"] = self.verdict
         d["thresholds"] = dict(THRESHOLDS)
         return d
+
+
+def _no_nan(x):
+    if isinstance(x, dict):
+        return {k: _no_nan(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_no_nan(v) for v in x]
+    if isinstance(x, float) and not np.isfinite(x):
+        return None
+    return x
 
 
 def _value(tree, name):
@@ -115,6 +128,13 @@ def diagnose_run(dt, names=None) -> Diagnostics:
                 "all_median": float(np.median(x)),
                 "shift_sd": float((np.median(x[div]) - np.median(x)) / sd),
             }
+    not_checked = []
+    if stats is None or "diverging" not in stats.data_vars:
+        not_checked.append("divergences")
+    if stats is None or "energy" not in stats.data_vars:
+        not_checked.append("E-BFMI")
+    if stats is None or "reached_max_tree_depth" not in stats.data_vars:
+        not_checked.append("tree depth")
     bfmi = []
     if stats is not None and "energy" in stats.data_vars:
         bfmi = [float(v) for v in np.asarray(az.bfmi(dt)["energy"].values).ravel()]
@@ -143,9 +163,13 @@ def diagnose_run(dt, names=None) -> Diagnostics:
         where = ""
         if locations:
             top = max(locations, key=lambda k: abs(locations[k]["shift_sd"]))
-            where = (
-                f" (they cluster at {'high' if locations[top]['shift_sd'] > 0 else 'low'} {top})"
-            )
+            shift = locations[top]["shift_sd"]
+            # A cluster is claimed only when the divergent draws' median sits
+            # at least half a posterior sd from the median of all draws.
+            if abs(shift) >= 0.5:
+                where = f" (they cluster at {'high' if shift > 0 else 'low'} {top})"
+            else:
+                where = " (no clear cluster in any parameter)"
         failed.append(f"{n_div} divergent transitions{where}")
         advice.append(
             "Divergences mean the sampler could not follow the posterior's curvature: raise "
@@ -171,6 +195,7 @@ def diagnose_run(dt, names=None) -> Diagnostics:
         divergence_locations=locations,
         bfmi=bfmi,
         tree_depth_fraction=depth_frac,
+        not_checked=tuple(not_checked),
         chains=chains,
         draws=draws,
         failed=tuple(failed),

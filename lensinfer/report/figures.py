@@ -54,17 +54,22 @@ def corner_figure(dt, names) -> bytes:
     data = np.column_stack([_draws(dt, n) for n in names])
     # corner logs "too few points to create valid contours" for narrow
     # posteriors; the histograms are still drawn.
-    logging.getLogger().setLevel(max(logging.getLogger().level, logging.ERROR))
-    fig = corner.corner(
-        data,
-        labels=names,
-        color=POST,
-        quantiles=[0.16, 0.5, 0.84],
-        show_titles=True,
-        title_fmt=".3g",
-        label_kwargs={"fontsize": 7},
-        title_kwargs={"fontsize": 6},
-    )
+    root = logging.getLogger()
+    level = root.level
+    root.setLevel(max(level, logging.ERROR))
+    try:
+        fig = corner.corner(
+            data,
+            labels=names,
+            color=POST,
+            quantiles=[0.16, 0.5, 0.84],
+            show_titles=True,
+            title_fmt=".3g",
+            label_kwargs={"fontsize": 7},
+            title_kwargs={"fontsize": 6},
+        )
+    finally:
+        root.setLevel(level)
     fig.set_size_inches(2 * COLUMN_WIDTH_IN, 2 * COLUMN_WIDTH_IN)
     del plt
     return _png(fig)

@@ -9,15 +9,17 @@ import numpy as np
 __all__ = ["model_from_results", "profile_bands"]
 
 
-def model_from_results(dt):
-    """Rebuild the SystemModel of a run from the spec texts kept in its provenance."""
+def model_from_results(dt, source: str = "<results>"):
+    """Rebuild the SystemModel of a run from the spec texts kept in its provenance.
+
+    A problem in an embedded text is reported against ``source`` (the
+    results file), e.g. ``run.nc (model_text): key 'halo' is missing``.
+    """
     from lensinfer.model import build_model
     from lensinfer.spec import parse_model, parse_observation
 
-    spec = parse_model(dt.attrs["model_text"], dt.attrs.get("model_path") or "<results>")
-    obs = parse_observation(
-        dt.attrs["observation_text"], dt.attrs.get("observation_path") or "<results>"
-    )
+    spec = parse_model(dt.attrs["model_text"], f"{source} (model_text)")
+    obs = parse_observation(dt.attrs["observation_text"], f"{source} (observation_text)")
     return build_model(spec, obs)
 
 

@@ -12,15 +12,15 @@ __all__ = ["consistent_imfs", "quantity_rows", "to_json", "to_latex", "to_markdo
 # (name, label for Markdown, LaTeX symbol, unit, scale); quantities absent
 # from a run (e.g. M200c of a total power law) are skipped.
 MAIN_QUANTITIES = (
-    ("fdm_einstein", "f_DM(<R_E)", r"$f_{\rm DM}(<R_{\rm E})$", "", 1.0),
-    ("fdm_reff", "f_DM(<R_eff), 3-D", r"$f_{\rm DM}(<r_{\rm eff})$", "", 1.0),
-    ("alpha_imf", "alpha_IMF", r"$\alpha_{\rm IMF}$", "", 1.0),
-    ("log10_imf_factor", "log10 alpha_IMF", r"$\log_{10}\alpha_{\rm IMF}$", "dex", 1.0),
+    ("fdm_einstein", "f_DM(<R_E)", r"$f_{\mathrm DM}(<R_{\mathrm E})$", "", 1.0),
+    ("fdm_reff", "f_DM(<R_eff), 3-D", r"$f_{\mathrm DM}(<r_{\mathrm eff})$", "", 1.0),
+    ("alpha_imf", "alpha_IMF", r"$\alpha_{\mathrm IMF}$", "", 1.0),
+    ("log10_imf_factor", "log10 alpha_IMF", r"$\log_{10}\alpha_{\mathrm IMF}$", "dex", 1.0),
     ("mstar_msun", "M*", r"$M_\star$", "1e11 Msun", 1e11),
     (
         "log10_mstar_ref",
         "log10 M*_ref (reference IMF)",
-        r"$\log_{10} M_{\star,\rm ref}$",
+        r"$\log_{10} M_{\star,\mathrm ref}$",
         "dex(Msun)",
         1.0,
     ),
@@ -30,17 +30,23 @@ MAIN_QUANTITIES = (
     (
         "contraction_ratio_reff",
         "M_DM(<R_eff) after/before response",
-        r"$M_{\rm DM}/M_{\rm DM,0}(<r_{\rm eff})$",
+        r"$M_{\mathrm DM}/M_{\mathrm DM,0}(<r_{\mathrm eff})$",
         "",
         1.0,
     ),
-    ("density_slope_einstein", "total density slope at R_E", r"$\gamma'(R_{\rm E})$", "", 1.0),
+    ("density_slope_einstein", "total density slope at R_E", r"$\gamma'(R_{\mathrm E})$", "", 1.0),
     ("slope", "power-law slope", r"$\gamma$", "", 1.0),
-    ("einstein_radius_arcsec", "theta_E (predicted)", r"$\theta_{\rm E}$", "arcsec", 1.0),
-    ("projected_mass_einstein_msun", "M_2D(<R_E)", r"$M_{\rm 2D}(<R_{\rm E})$", "1e11 Msun", 1e11),
-    ("sigma_aperture_kms", "sigma_ap (predicted)", r"$\sigma_{\rm ap}$", "km/s", 1.0),
+    ("einstein_radius_arcsec", "theta_E (predicted)", r"$\theta_{\mathrm E}$", "arcsec", 1.0),
+    (
+        "projected_mass_einstein_msun",
+        "M_2D(<R_E)",
+        r"$M_{\mathrm 2D}(<R_{\mathrm E})$",
+        "1e11 Msun",
+        1e11,
+    ),
+    ("sigma_aperture_kms", "sigma_ap (predicted)", r"$\sigma_{\mathrm ap}$", "km/s", 1.0),
     ("anisotropy_beta", "anisotropy beta", r"$\beta$", "", 1.0),
-    ("z_source", "z_source", r"$z_{\rm s}$", "", 1.0),
+    ("z_source", "z_source", r"$z_{\mathrm s}$", "", 1.0),
 )
 
 
@@ -77,11 +83,20 @@ def quantity_rows(dt, names=None) -> list[dict]:
     return rows
 
 
-def _fmt(v: float) -> str:
-    if v == 0 or not math.isfinite(v):
+def _decimals(row) -> int:
+    """Decimals that show the smaller 68% error to 2 significant figures."""
+    m = row["median"]
+    lo, hi = row["interval_68"]
+    err = min(m - lo, hi - m)
+    if not (err > 0 and math.isfinite(err)):
+        err = abs(m) * 1e-3 if m else 1e-3
+    return max(0, 1 - math.floor(math.log10(err)))
+
+
+def _fmt(v: float, decimals: int) -> str:
+    if not math.isfinite(v):
         return f"{v:g}"
-    digits = max(0, 2 - math.floor(math.log10(abs(v))))
-    return f"{v:.{min(digits, 4)}f}"
+    return f"{v:.{decimals}f}"
 
 
 def to_markdown(rows) -> str:
@@ -90,29 +105,45 @@ def to_markdown(rows) -> str:
         "|---|---|---|---|---|",
     ]
     for r in rows:
+        k = _decimals(r)
         a, b = r["interval_68"]
         c, d = r["interval_95"]
         lines.append(
-            f"| {r['label']} | {r['unit']} | {_fmt(r['median'])} | {_fmt(a)} .. {_fmt(b)} "
-            f"| {_fmt(c)} .. {_fmt(d)} |"
+            f"| {r['label']} | {r['unit']} | {_fmt(r['median'], k)} | {_fmt(a, k)} .. "
+            f"{_fmt(b, k)} | {_fmt(c, k)} .. {_fmt(d, k)} |"
         )
     return "\n".join(lines) + "\n"
 
 
-_TEX_ESCAPES = {"_": r"\_", "%": r"\%", "&": r"\&", "#": r"\#"}
+_TEX_ESCAPES = {
+    "\\": r"\textbackslash{}",
+    "_": r"\_",
+    "%": r"\%",
+    "&": r"\&",
+    "#": r"\#",
+    "$": r"\$",
+    "{": r"\{",
+    "}": r"\}",
+    "^": r"\textasciicircum{}",
+    "~": r"\textasciitilde{}",
+    "<": r"\textless{}",
+    ">": r"\textgreater{}",
+}
 
 
 def _tex_text(s: str) -> str:
     return "".join(_TEX_ESCAPES.get(ch, ch) for ch in s)
 
 
-def to_latex(rows, caption: str = "Posterior summary") -> str:
-    """A ``table`` environment a paper can take (booktabs rules).
+def to_latex(rows, caption: str = "Posterior summary", imfs=None) -> str:
+    """A ``table`` environment a paper can take (needs ``\\usepackage{booktabs}``).
 
     Values are median with the 68% interval as asymmetric errors; the 95%
-    interval is in its own column.
+    interval is in its own column.  ``imfs``, when given, is a note under the
+    table (the named IMFs alpha_IMF is consistent with).
     """
     out = [
+        "% lensinfer posterior table; needs \\usepackage{booktabs}",
         r"\begin{table}",
         r"\centering",
         r"\caption{" + _tex_text(caption) + "}",
@@ -122,15 +153,19 @@ def to_latex(rows, caption: str = "Posterior summary") -> str:
         r"\midrule",
     ]
     for r in rows:
+        k = _decimals(r)
         m = r["median"]
         lo, hi = r["interval_68"]
         c, d = r["interval_95"]
         unit = _tex_text(r["unit"]).replace("1e11", r"$10^{11}$").replace("1e13", r"$10^{13}$")
         out.append(
-            f"{r['latex']} & {unit} & ${_fmt(m)}^{{+{_fmt(hi - m)}}}_{{-{_fmt(m - lo)}}}$ "
-            f"& [{_fmt(c)}, {_fmt(d)}] \\\\"
+            f"{r['latex']} & {unit} & ${_fmt(m, k)}^{{+{_fmt(hi - m, k)}}}_{{-{_fmt(m - lo, k)}}}$ "
+            f"& $[{_fmt(c, k)}, {_fmt(d, k)}]$ \\\\"
         )
-    out += [r"\bottomrule", r"\end{tabular}", r"\end{table}"]
+    out += [r"\bottomrule", r"\end{tabular}"]
+    if imfs is not None:
+        out.append(r"\par\smallskip " + _tex_text(imfs))
+    out.append(r"\end{table}")
     return "\n".join(out) + "\n"
 
 
