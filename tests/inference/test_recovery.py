@@ -13,8 +13,9 @@ model, and checks behaviour a user relies on:
   posterior is a ridge of stellar versus dark mass that ends on the prior
   bound, and short runs mix slowly along it (measured at 4 x (800 + 400):
   R-hat 1.012 and ESS 424 for alpha_IMF, 3 divergences at target_accept
-  0.95; at 0.99 no divergence but R-hat 1.015).  With kinematics the ridge
-  closes (tests/dynamics);
+  0.95; at 0.99 no divergence but R-hat 1.015).  A velocity dispersion
+  should close the ridge (test_kinematics_recovery.py, which waits for the
+  dynamics layer);
 * 95% credible intervals that cover the true projected mass inside the
   Einstein radius, the true SED stellar mass and the true stellar mass.
 
