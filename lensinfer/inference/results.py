@@ -24,21 +24,30 @@ def _atomic_path(path):
     return tmp
 
 
-def write_results(dt, path) -> str:
-    """Write a DataTree to netCDF through a temporary file and a rename.
+def _write_atomically(path, write) -> str:
+    """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it.
 
-    An interrupted run never leaves a half-written results file at ``path``.
+    On any failure (or interrupt) the temporary file is removed and an
+    existing file at ``path`` is left as it was.
     """
     path = os.fspath(path)
     tmp = _atomic_path(path)
     try:
-        dt.to_netcdf(tmp, engine="h5netcdf")
+        write(tmp)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.remove(tmp)
         raise
     return path
+
+
+def write_results(dt, path) -> str:
+    """Write a DataTree to netCDF through a temporary file and a rename.
+
+    An interrupted run never leaves a half-written results file at ``path``.
+    """
+    return _write_atomically(path, lambda tmp: dt.to_netcdf(tmp, engine="h5netcdf"))
 
 
 def read_results(path):
@@ -105,29 +114,19 @@ def _float(x):
 
 def write_bytes(data: bytes, path) -> str:
     """Write bytes to ``path`` atomically (temporary file in the same directory, rename)."""
-    path = os.fspath(path)
-    tmp = _atomic_path(path)
-    try:
+
+    def write(tmp):
         with open(tmp, "wb") as fh:
             fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
-    return path
+
+    return _write_atomically(path, write)
 
 
 def write_summary(summary: dict, path) -> str:
     """Write the JSON summary atomically."""
-    path = os.fspath(path)
-    tmp = _atomic_path(path)
-    try:
+
+    def write(tmp):
         with open(tmp, "w", encoding="utf-8") as fh:
             json.dump(summary, fh, indent=2)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
-    return path
+
+    return _write_atomically(path, write)
