@@ -162,7 +162,12 @@ class ContractedHalo(SphericalProfile):
         u_lo = self.log_r0
         u_hi = self.log_r0 + _GRID_H * (GRID_N - 1)
         uc = jnp.clip(u, u_lo, u_hi)
-        val, der = _spline.evaluate(uc, u_lo, _GRID_H, self.log_mass, self.log_mass_d2)
+        # One-hot spline picks, not a gather: the reverse pass of a gather is a
+        # scatter-add, slow on XLA's CPU backend (the Jeans grid's 61 radii:
+        # measured in benchmarks/bench_dynamics.py).
+        val, der = _spline.evaluate_many(
+            uc, u_lo, _GRID_H, self.log_mass, self.log_mass_d2, derivative=True
+        )
         # Inner: power law with the end slope.
         inner_val = val + der * (u - uc)
         # Outer: the unresponsive halo, scaled to join at the last knot.
