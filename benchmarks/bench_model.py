@@ -1,8 +1,9 @@
 """Benchmark: the log posterior of every built-in model on the demo lens, and NUTS.
 
 For each built-in model (``lensinfer.spec.builtin_model_names()``) built on the
-demo observation (``lensinfer/data/demo_lens.toml``, invented data), times the
-value and gradient of the log posterior
+demo observation (``lensinfer/data/demo_lens.toml``, invented data), with its
+ring and stellar mass only ("lensing only") and with its velocity dispersion
+too ("+ kinematics"), times the value and gradient of the log posterior
 
 .. math:: \\ln p(\\theta \\mid d) = \\ln \\pi(\\theta) + \\sum_i \\ln L_i(\\theta)
 
@@ -26,17 +27,20 @@ with the value in one array, so the timed loop consumes it and XLA cannot drop
 it as dead code.
 
 With ``--nuts``, also runs ``lensinfer.sample`` on the demo (default: gnedin04,
-4 chains x (1000 warm-up + 1000 draws)) and reports the wall time without and
+4 chains x (1000 warm-up + 1000 draws)), lensing only and with kinematics, and
+reports the wall time without and
 with compilation (compilation measured with JAX's monitoring events: tracing,
 lowering and XLA compilation or persistent-cache retrieval), divergences, the
 smallest bulk and tail ESS, the largest R-hat (arviz, rank-normalised split
-R-hat) and ESS per second.
+R-hat), ESS per second and the ratio of the two wall times.
 
 Prints tables and writes benchmarks/results/bench_model.json.
 Run: ``python benchmarks/bench_model.py [--nuts] [--model NAME] [--chains N]``
 """
 
 import argparse
+import dataclasses
+import itertools
 import json
 import os
 import time
@@ -81,11 +85,14 @@ def posterior_point(lens):
 
 def bench_gradients(obs):
     rows = []
-    for name in builtin_model_names():
+    variants = [("lensing only", dataclasses.replace(obs, kinematics=None))]
+    if obs.kinematics is not None:
+        variants.append(("+ kinematics", obs))
+    for name, (data, o) in itertools.product(builtin_model_names(), variants):
         try:
-            lens = build_model(read_model(name), obs)
+            lens = build_model(read_model(name), o)
         except Exception as exc:  # a model that does not build is reported, not fatal
-            rows.append({"model": name, "error": f"{type(exc).__name__}: {exc}"})
+            rows.append({"model": name, "data": data, "error": f"{type(exc).__name__}: {exc}"})
             print(f"  {name}: does not build: {exc}", flush=True)
             continue
         theta = posterior_point(lens)
@@ -101,6 +108,7 @@ def bench_gradients(obs):
         rows.append(
             {
                 "model": name,
+                "data": data,
                 "n_params": len(lens.parameter_names),
                 "parameters": dict(zip(lens.parameter_names, map(float, theta), strict=True)),
                 "log_posterior": float(out[0]),
@@ -110,22 +118,22 @@ def bench_gradients(obs):
                 "value_and_grad_us_python_call": 1e6 * time_python_call(vg, theta),
             }
         )
-        print(f"  {name}: done", flush=True)
+        print(f"  {name} ({data}): done", flush=True)
     return rows
 
 
 def print_gradients(rows):
     print(
-        f"{'model':18s} {'n':>2s} {'ln post':>9s} {'val+grad loop (us)':>19s}"
+        f"{'model':18s} {'data':13s} {'n':>2s} {'ln post':>9s} {'val+grad loop (us)':>19s}"
         f" {'val+grad py call (us)':>22s} {'1st call (s)':>13s}"
     )
     for r in rows:
         if "error" in r:
-            print(f"{r['model']:18s} (does not build)")
+            print(f"{r['model']:18s} {r['data']:13s} (does not build)")
             continue
         flag = "" if r["gradient_finite"] else "  (non-finite gradient)"
         print(
-            f"{r['model']:18s} {r['n_params']:2d} {r['log_posterior']:9.3f}"
+            f"{r['model']:18s} {r['data']:13s} {r['n_params']:2d} {r['log_posterior']:9.3f}"
             f" {r['value_and_grad_us_loop']:19.2f} {r['value_and_grad_us_python_call']:22.1f}"
             f" {r['first_call_s']:13.1f}{flag}"
         )
@@ -183,14 +191,17 @@ class _CompileClock:
         return total
 
 
-def bench_nuts(args):
+def bench_nuts(args, lensing_only=False):
     import arviz as az
 
+    obs = read_observation(DEMO)
+    if lensing_only:
+        obs = dataclasses.replace(obs, kinematics=None)
     with _CompileClock() as clock:
         t = time.perf_counter()
         dt = lensinfer.sample(
             args.model,
-            DEMO,
+            obs,
             chains=args.chains,
             warmup=args.warmup,
             draws=args.draws,
@@ -206,6 +217,7 @@ def bench_nuts(args):
     wall = total - clock.seconds
     out = {
         "model": args.model,
+        "data": "lensing only" if lensing_only else "lensing + kinematics",
         "chains": args.chains,
         "warmup": args.warmup,
         "draws": args.draws,
@@ -237,7 +249,7 @@ def bench_nuts(args):
 
 def print_nuts(r):
     print(
-        f"\nNUTS {r['model']}: {r['chains']} chains x ({r['warmup']} warm-up + {r['draws']} draws),"
+        f"\nNUTS {r['model']} ({r['data']}): {r['chains']} chains x ({r['warmup']} warm-up + {r['draws']} draws),"
         f" {r['chain_method']}"
     )
     print(
@@ -289,8 +301,15 @@ def main(argv=None):
         payload["rows"] = rows = bench_gradients(obs)
         print_gradients(rows)
     if args.nuts:
-        payload["nuts"] = nuts = bench_nuts(args)
-        print_nuts(nuts)
+        payload["nuts"] = runs = [bench_nuts(args, lensing_only=True)]
+        if read_observation(DEMO).kinematics is not None:
+            runs.append(bench_nuts(args))
+        for r in runs:
+            print_nuts(r)
+        if len(runs) == 2:
+            ratio = runs[1]["compile_inclusive_wall_s"] / runs[0]["compile_inclusive_wall_s"]
+            payload["kinematics_cost_ratio"] = ratio
+            print(f"\nwall time with kinematics / lensing only (compilation included): {ratio:.2f}")
     print(f"wrote {write_json('bench_model.json', payload)}")
 
 

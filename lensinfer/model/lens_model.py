@@ -479,18 +479,6 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
 
     # --- orbital anisotropy of the stars (only when kinematics are used)
     if spec.kinematics.get("use") and observation.kinematics is not None:
-        try:
-            import lensinfer.dynamics  # noqa: F401
-        except ImportError:
-            from lensinfer.spec import SpecError
-
-            raise SpecError(
-                observation.path,
-                "kinematics",
-                "sigma_kms",
-                "an observation without [kinematics], or a model with [kinematics] use = false",
-                problem="cannot be used yet: this version has no Jeans-dynamics layer",
-            ) from None
         kind = spec.kinematics.get("anisotropy", "isotropic")
         key = {
             "constant": ("anisotropy_beta", "beta"),
