@@ -88,6 +88,36 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("results", help="a results file written by 'lensinfer sample' (.nc)")
     p.add_argument("-o", "--output-dir", required=True, help="directory for the report")
 
+    p = sub.add_parser(
+        "compare", help="compare halo-response hypotheses for one lens (evidences, nu posterior)"
+    )
+    p.add_argument("observation", help="an observation file (TOML)")
+    p.add_argument("models", nargs="+", help="model files or built-in model names (one or more)")
+    p.add_argument("-o", "--output-dir", required=True, help="directory for the comparison")
+    p.add_argument(
+        "--live", type=int, default=500, help="nested-sampling live points (default 500)"
+    )
+    p.add_argument(
+        "--dlogz", type=float, default=0.1, help="nested-sampling stopping tolerance (default 0.1)"
+    )
+    p.add_argument(
+        "--prior-odds",
+        action="append",
+        default=[],
+        metavar="MODEL=WEIGHT",
+        help="prior weight of a model (repeatable; default equal odds)",
+    )
+    p.add_argument(
+        "--no-continuous",
+        action="store_true",
+        help="skip the free-response nu posterior (run otherwise even if not listed)",
+    )
+    p.add_argument("--chains", type=int, default=4, help="NUTS chains (default 4)")
+    p.add_argument("--warmup", type=int, default=500, help="NUTS warm-up steps (default 500)")
+    p.add_argument("--draws", type=int, default=500, help="NUTS kept draws (default 500)")
+    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--no-progress", action="store_true", help="hide the progress output")
+
     p = sub.add_parser("models", help="list the built-in model specs")
 
     p = sub.add_parser("demo", help="run the whole job on the invented demo lens")
@@ -306,6 +336,74 @@ def _cmd_report(args) -> int:
     return 0
 
 
+def _parse_odds(items) -> dict:
+    odds = {}
+    for item in items:
+        name, sep, value = item.partition("=")
+        try:
+            weight = float(value) if sep else float("nan")
+        except ValueError:
+            weight = float("nan")
+        if not name or not weight > 0:
+            raise ValueError(
+                f"--prior-odds {item!r}: expected MODEL=WEIGHT with a positive number, "
+                "e.g. gnedin04=2"
+            )
+        odds[name] = weight
+    return odds
+
+
+def _cmd_compare(args) -> int:
+    from lensinfer.compare import CompareSettings, compare
+    from lensinfer.spec import read_model, read_observation
+
+    for name in ("live", "chains", "warmup", "draws"):
+        if getattr(args, name) < 1:
+            raise ValueError(f"--{name} must be a positive integer, not {getattr(args, name)}")
+    if not args.dlogz > 0:
+        raise ValueError(f"--dlogz must be positive, not {args.dlogz}")
+    if os.path.exists(args.output_dir) and not os.path.isdir(args.output_dir):
+        raise ValueError(f"{args.output_dir}: exists and is not a directory (-o wants a directory)")
+    obs = read_observation(args.observation)
+    names = [read_model(m).name for m in args.models]  # every model valid before any run
+    odds = _parse_odds(args.prior_odds)
+    unknown = sorted(set(odds) - set(names))
+    if unknown:
+        raise ValueError(f"--prior-odds names {unknown}, not among the compared models {names}")
+    settings = CompareSettings(
+        n_live=args.live,
+        dlogz=args.dlogz,
+        chains=args.chains,
+        warmup=args.warmup,
+        draws=args.draws,
+        seed=args.seed,
+    )
+    result = compare(
+        obs,
+        args.models,
+        args.output_dir,
+        settings=settings,
+        prior_odds=odds,
+        continuous=not args.no_continuous,
+        progress=not args.no_progress,
+    )
+    print(f"{'model':18s} {'ln Z':>15s} {'Delta ln Z':>15s} {'P(model)':>9s}  Kass & Raftery")
+    for r in result["table"]:
+        delta = f"{r['delta_ln_z']:.2f} +- {r['delta_ln_z_err']:.2f}"
+        print(
+            f"{r['model']:18s} {r['ln_z']:8.2f} +- {r['ln_z_err']:4.2f} {delta:>15s}"
+            f" {r['probability']:9.3f}  {r['kass_raftery']}"
+        )
+    c = result.get("continuous")
+    if c:
+        print(
+            f"free-response nu = {c['nu_median']:.2f} (95%: {c['nu_95'][0]:.2f} to"
+            f" {c['nu_95'][1]:.2f})"
+        )
+    print(f"comparison: {os.path.abspath(os.path.join(args.output_dir, 'compare.md'))}")
+    return 0
+
+
 def _cmd_demo(args, argv) -> int:
     _check_sampling_args(args)
     os.makedirs(args.output_dir, exist_ok=True)
@@ -342,6 +440,8 @@ def main(argv: list[str] | None = None) -> int:
             return _cmd_mock(args)
         if args.command == "models":
             return _cmd_models()
+        if args.command == "compare":
+            return _cmd_compare(args)
         if args.command == "report":
             return _cmd_report(args)
         if args.command == "demo":

@@ -92,6 +92,8 @@ def sample(
     prior = draw_prior(lens, k_prior, max(prior_draws, 512, 8 * chains))
     starts = initial_points(prior, chains)
     init_params = to_unconstrained(lens, starts)
+    if chains == 1:  # numpyro expects unbatched initial values for a single chain
+        init_params = {k: v[0] for k, v in init_params.items()}
 
     kernel = NUTS(
         lens.numpyro_model,

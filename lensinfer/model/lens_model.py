@@ -158,6 +158,16 @@ class SystemModel:
             values[p.name] = p.prior(values).from_unit_cube(u[..., k])
         return values
 
+    def to_unit_cube(self, params):
+        """The inverse of :meth:`prior_transform`: parameters -> unit-cube point (..., n).
+
+        Each coordinate is the parameter's prior CDF given the earlier
+        parameters' values (the Rosenblatt transform), so a posterior draw maps
+        to the point of the cube that :meth:`prior_transform` sends back to it.
+        """
+        cols = [p.prior(params).to_unit_cube(params[p.name]) for p in self.plan]
+        return jnp.stack(cols, axis=-1)
+
     def prior_descriptions(self) -> dict[str, str]:
         return {p.name: p.describe for p in self.plan}
 

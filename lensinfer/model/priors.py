@@ -25,6 +25,10 @@ class Uniform:
     def from_unit_cube(self, u):
         return self.low + (self.high - self.low) * u
 
+    def to_unit_cube(self, x):
+        """The prior CDF at x (the inverse of :meth:`from_unit_cube`)."""
+        return (x - self.low) / (self.high - self.low)
+
     def median(self):
         return 0.5 * (self.low + self.high)
 
@@ -46,6 +50,10 @@ class Normal:
 
     def from_unit_cube(self, u):
         return self.mean + self.sd * ndtri(u)
+
+    def to_unit_cube(self, x):
+        """The prior CDF at x (the inverse of :meth:`from_unit_cube`)."""
+        return ndtr((x - self.mean) / self.sd)
 
     def median(self):
         return self.mean
@@ -72,6 +80,12 @@ class TruncatedNormal:
         a = ndtr((self.low - self.mean) / self.sd)
         b = ndtr((self.high - self.mean) / self.sd)
         return self.mean + self.sd * ndtri(a + u * (b - a))
+
+    def to_unit_cube(self, x):
+        """The prior CDF at x (the inverse of :meth:`from_unit_cube`)."""
+        a = ndtr((self.low - self.mean) / self.sd)
+        b = ndtr((self.high - self.mean) / self.sd)
+        return (ndtr((x - self.mean) / self.sd) - a) / (b - a)
 
     def median(self):
         return self.from_unit_cube(jnp.asarray(0.5))
