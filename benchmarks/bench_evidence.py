@@ -2,7 +2,7 @@
 
 For each built-in model (or those named with ``--models``) on the demo
 observation (``lensinfer/data/demo_lens.toml``, invented data: ring, stellar
-mass and aperture velocity dispersion), runs :func:`lensinfer.compare.nested_evidence`
+mass and aperture velocity dispersion), runs :func:`lensinfer.comparison.nested_evidence`
 (dynesty, multi-ellipsoid bounds, random-walk proposals) at ``--live`` live
 points and dlogz 0.1, and reports ln Z, its uncertainty, the likelihood
 calls, the wall time (compilation included) and the cost per call.  The
@@ -18,7 +18,7 @@ import os
 from _timing import machine_info, write_json
 
 import lensinfer
-from lensinfer.compare import nested_evidence, problem_of
+from lensinfer.comparison import nested_evidence, problem_of
 from lensinfer.model import build_model
 from lensinfer.spec import builtin_model_names, read_model, read_observation
 

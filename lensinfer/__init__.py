@@ -52,6 +52,7 @@ from lensinfer._version import __version__  # noqa: E402
 __all__ = [
     "__version__",
     "build_model",
+    "compare",
     "read_model",
     "read_observation",
     "read_results",
@@ -68,6 +69,7 @@ _LAZY = {
     "read_model": "lensinfer.spec",
     "read_observation": "lensinfer.spec",
     "build_model": "lensinfer.model",
+    "compare": "lensinfer.comparison",
 }
 
 

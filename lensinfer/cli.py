@@ -354,7 +354,7 @@ def _parse_odds(items) -> dict:
 
 
 def _cmd_compare(args) -> int:
-    from lensinfer.compare import CompareSettings, compare
+    from lensinfer.comparison import CompareSettings, compare
     from lensinfer.spec import read_model, read_observation
 
     for name in ("live", "chains", "warmup", "draws"):

@@ -4,7 +4,7 @@ import math
 
 import pytest
 
-from lensinfer.compare import evidence_table, kass_raftery
+from lensinfer.comparison import evidence_table, kass_raftery
 
 
 @pytest.mark.parametrize(

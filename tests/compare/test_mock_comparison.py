@@ -21,7 +21,7 @@ data).
 import numpy as np
 import pytest
 
-from lensinfer.compare import effective_nu, nested_evidence, problem_of
+from lensinfer.comparison import effective_nu, nested_evidence, problem_of
 from lensinfer.inference import sample
 from lensinfer.mock import make_mock, parse_truth
 from lensinfer.model import build_model

@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 from scipy.stats import norm, truncnorm
 
-from lensinfer.compare import UnitCubeProblem, importance_evidence, nested_evidence
+from lensinfer.comparison import UnitCubeProblem, importance_evidence, nested_evidence
 
 LO, HI = -5.0, 5.0
 MU = np.array([0.5, -1.0, 2.0])

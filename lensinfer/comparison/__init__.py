@@ -1,19 +1,20 @@
 """Comparing halo-response hypotheses: evidences, Bayes factors and the continuous answer.
 
-- :func:`compare` — the whole comparison for one lens (``lensinfer compare``);
+- :func:`compare` — the whole comparison for one lens (``lensinfer compare``;
+  also ``lensinfer.compare``);
 - :func:`nested_evidence`, :func:`importance_evidence` — the two ln Z estimators;
 - :func:`evidence_table`, :func:`kass_raftery`, :func:`effective_nu`.
 """
 
-from lensinfer.compare.evidence import (
+from lensinfer.comparison.evidence import (
     Evidence,
     UnitCubeProblem,
     importance_evidence,
     nested_evidence,
     problem_of,
 )
-from lensinfer.compare.hypotheses import effective_nu, evidence_table, kass_raftery
-from lensinfer.compare.run import CompareSettings, compare, to_markdown
+from lensinfer.comparison.hypotheses import effective_nu, evidence_table, kass_raftery
+from lensinfer.comparison.run import CompareSettings, compare, to_markdown
 
 __all__ = [
     "CompareSettings",

@@ -24,8 +24,8 @@ import warnings
 import numpy as np
 
 from lensinfer._version import __version__
-from lensinfer.compare.evidence import importance_evidence, nested_evidence, problem_of
-from lensinfer.compare.hypotheses import effective_nu, evidence_table
+from lensinfer.comparison.evidence import importance_evidence, nested_evidence, problem_of
+from lensinfer.comparison.hypotheses import effective_nu, evidence_table
 
 __all__ = ["CompareSettings", "compare"]
 
@@ -281,7 +281,7 @@ def compare(
     -------
     dict
         The content of ``compare.json``: ``table`` (see
-        :func:`~lensinfer.compare.evidence_table`), per-model ``models``
+        :func:`~lensinfer.comparison.evidence_table`), per-model ``models``
         records, ``cross_check``, ``loo``, ``continuous`` and ``caveats``.
     """
     from lensinfer.spec import Observation, read_model, read_observation
