@@ -98,8 +98,8 @@ def test_uncontracted_truth_does_not_prefer_contraction(mocks):
 
 def test_same_hypothesis_under_two_names_gives_zero(mocks):
     obs, _ = mocks["gnedin04"]
-    a = _ln_z(spec("gnedin04"), obs, seed=1, n_live=200)
-    b = _ln_z(spec("gnedin04", rename="gnedin04-copy"), obs, seed=2, n_live=200)
+    a = _ln_z(spec("gnedin04"), obs, seed=1, n_live=150)
+    b = _ln_z(spec("gnedin04", rename="gnedin04-copy"), obs, seed=2, n_live=150)
     # Independent seeds: the difference is pure sampling noise, within
     # 2.5 combined sigma unless the error bars are too small.
     assert abs(a.ln_z - b.ln_z) < 2.5 * np.hypot(a.ln_z_err, b.ln_z_err), (a, b)
@@ -109,7 +109,8 @@ def test_same_hypothesis_under_two_names_gives_zero(mocks):
 def test_nu_posterior_covers_the_truth(mocks, gen):
     obs, truth = mocks[gen]
     free = build_model(spec("free-response"), obs)
-    dt = sample(free, chains=4, warmup=400, draws=300, seed=3, progress=False, prior_draws=200)
+    # 2 chains x 300 draws: coverage only (no convergence thresholds asserted).
+    dt = sample(free, chains=2, warmup=300, draws=300, seed=3, progress=False, prior_draws=200)
     nu = np.asarray(dt.posterior["response_nu"].values).ravel()
     if gen == "no-response":
         nu_true = 0.0
