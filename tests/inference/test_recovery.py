@@ -14,8 +14,7 @@ model, and checks behaviour a user relies on:
   bound, and short runs mix slowly along it (measured at 4 x (800 + 400):
   R-hat 1.012 and ESS 424 for alpha_IMF, 3 divergences at target_accept
   0.95; at 0.99 no divergence but R-hat 1.015).  A velocity dispersion
-  should close the ridge (test_kinematics_recovery.py, which waits for the
-  dynamics layer);
+  closes the ridge (test_kinematics_recovery.py);
 * 95% credible intervals that cover the true projected mass inside the
   Einstein radius, the true SED stellar mass and the true stellar mass.
 
@@ -96,10 +95,12 @@ log10_mstar_msun = 0.1
 """
 
 CASES = {
-    # case: (model, truth, noise seed, warm-up steps, strict thresholds)
-    "gnedin04-contracted": ("gnedin04", CONTRACTED, 11, 800, False),
-    "no-response-photo-z": ("no-response", UNCONTRACTED_PHOTO_Z, 11, 600, True),
-    "power-law-total": ("power-law-total", POWER_LAW, 11, 400, True),
+    # case: (model, truth, noise seed, warm-up steps, kept draws, strict thresholds)
+    "gnedin04-contracted": ("gnedin04", CONTRACTED, 11, 800, DRAWS, False),
+    # 600 draws: at 400 the alpha_IMF R-hat sat at the threshold (1.0107 in
+    # CI after a rounding-level change of the physics, 2026-12-02).
+    "no-response-photo-z": ("no-response", UNCONTRACTED_PHOTO_Z, 11, 600, 600, True),
+    "power-law-total": ("power-law-total", POWER_LAW, 11, 400, DRAWS, True),
 }
 
 # Thresholds (module docstring): (max R-hat, min bulk ESS per chain, max
@@ -110,7 +111,7 @@ RIDGE = (1.02, 50, 0.01)
 
 @pytest.fixture(scope="module", params=sorted(CASES))
 def fitted(request):
-    model_name, truth_text, noise_seed, warmup, strict = CASES[request.param]
+    model_name, truth_text, noise_seed, warmup, draws, strict = CASES[request.param]
     spec = read_model(model_name)
     truth = parse_truth(truth_text, f"<{request.param}>")
     obs, true_values = make_mock(spec, truth, noise=True, seed=noise_seed)
@@ -124,7 +125,7 @@ def fitted(request):
         assert abs(measured.value - true) < 2.0 * measured.sd
     lens = build_model(spec, obs)
     dt = sample(
-        lens, chains=CHAINS, warmup=warmup, draws=DRAWS, seed=1, progress=False, prior_draws=200
+        lens, chains=CHAINS, warmup=warmup, draws=draws, seed=1, progress=False, prior_draws=200
     )
     return request.param, lens, dt, true_values, STRICT if strict else RIDGE
 
@@ -152,7 +153,7 @@ def test_converged(fitted):
 def test_few_divergences(fitted):
     case, _, dt, _, (_, _, max_fraction) = fitted
     n_div = int(np.asarray(dt.sample_stats["diverging"].values).sum())
-    assert n_div <= max_fraction * CHAINS * DRAWS, f"{case}: {n_div} divergences"
+    assert n_div <= max_fraction * CHAINS * dt.posterior.sizes["draw"], f"{case}: {n_div} divergences"
 
 
 @pytest.mark.parametrize(

@@ -148,11 +148,17 @@ def test_latex_table_shape():
 def small_run(tmp_path_factory):
     d = tmp_path_factory.mktemp("run")
     out = d / "run.nc"
+    # The demo lens without its velocity dispersion: a ring-only fit, where
+    # the power law's slope is left to its prior (asserted below).
+    with open(demo_observation_path(), encoding="utf-8") as fh:
+        text = fh.read()
+    ring_only = d / "ring-only.toml"
+    ring_only.write_text(text.split("[kinematics]")[0], encoding="utf-8")
     status = main(
         [
             "sample",
             "power-law-total",
-            demo_observation_path(),
+            str(ring_only),
             "-o",
             str(out),
             "--chains",
