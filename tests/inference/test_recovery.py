@@ -153,7 +153,9 @@ def test_converged(fitted):
 def test_few_divergences(fitted):
     case, _, dt, _, (_, _, max_fraction) = fitted
     n_div = int(np.asarray(dt.sample_stats["diverging"].values).sum())
-    assert n_div <= max_fraction * CHAINS * dt.posterior.sizes["draw"], f"{case}: {n_div} divergences"
+    assert n_div <= max_fraction * CHAINS * dt.posterior.sizes["draw"], (
+        f"{case}: {n_div} divergences"
+    )
 
 
 @pytest.mark.parametrize(
