@@ -369,7 +369,8 @@ def _cmd_compare(args) -> int:
     if os.path.exists(args.output_dir) and not os.path.isdir(args.output_dir):
         raise ValueError(f"{args.output_dir}: exists and is not a directory (-o wants a directory)")
     obs = read_observation(args.observation)
-    names = [read_model(m).name for m in args.models]  # every model valid before any run
+    specs = [read_model(m) for m in args.models]  # every model valid before any run
+    names = [s.name for s in specs]
     odds = _parse_odds(args.prior_odds)
     unknown = sorted(set(odds) - set(names))
     if unknown:
@@ -384,7 +385,7 @@ def _cmd_compare(args) -> int:
     )
     result = compare(
         obs,
-        args.models,
+        specs,
         args.output_dir,
         settings=settings,
         prior_odds=odds,

@@ -103,8 +103,7 @@ def effective_nu(free_lens, fixed_lens, draws: dict, nu_grid=None) -> np.ndarray
         Default: -0.3 to 1.5 in steps of 0.05 (the free model's prior range).
     """
     nu_grid = jnp.linspace(-0.3, 1.5, 37) if nu_grid is None else jnp.asarray(nu_grid)
-    names = [n for n in fixed_lens.parameter_names]
-    p = {k: jnp.asarray(np.asarray(draws[k], dtype=float)) for k in names}
+    p = {k: jnp.asarray(np.asarray(draws[k], dtype=float)) for k in fixed_lens.parameter_names}
 
     def one(point):
         target = fixed_lens.derive(point)["contraction_ratio_reff"]

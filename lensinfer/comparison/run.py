@@ -111,6 +111,7 @@ def _psis_loo(dt) -> dict | None:
 
 
 def _convergence(dt, names) -> dict:
+    """Worst R-hat and bulk ESS over the sampled parameters (NaN for one chain), and divergences."""
     import arviz as az
 
     rhat = az.rhat(dt, var_names=names)
@@ -122,7 +123,7 @@ def _convergence(dt, names) -> dict:
     }
 
 
-def _run_model(name, observation, settings, outdir, progress, evidence=True):
+def _run_model(spec, observation, settings, outdir, progress, evidence=True):
     """NUTS + both evidences + LOO for one model, cached under ``outdir/models``.
 
     With ``evidence=False`` only the NUTS run (for the continuous answer),
@@ -130,9 +131,7 @@ def _run_model(name, observation, settings, outdir, progress, evidence=True):
     """
     from lensinfer.inference import read_results, sample, write_results, write_summary
     from lensinfer.model import build_model
-    from lensinfer.spec import read_model
 
-    spec = read_model(name)
     key = _cache_key(spec, observation, settings)
     tag = "" if evidence else "-posterior-only"
     stem = os.path.join(outdir, "models", f"{spec.name}{tag}-{key}") if outdir else None
@@ -263,8 +262,8 @@ def compare(
     Parameters
     ----------
     observation : str, path or Observation
-    models : sequence of str
-        Built-in model names or model-file paths (at least one).
+    models : sequence of str or ModelSpec
+        Built-in model names, model-file paths or parsed specs (at least one).
     outdir : str or path, optional
         Where to write ``compare.json``, ``compare.md``, ``compare.png`` and
         the per-model cache ``models/``; nothing is written without it.
@@ -284,19 +283,20 @@ def compare(
         :func:`~lensinfer.comparison.evidence_table`), per-model ``models``
         records, ``cross_check``, ``loo``, ``continuous`` and ``caveats``.
     """
-    from lensinfer.spec import Observation, read_model, read_observation
+    from lensinfer.spec import ModelSpec, Observation, read_model, read_observation
 
     settings = settings or CompareSettings()
     obs = observation if isinstance(observation, Observation) else read_observation(observation)
     if not models:
         raise ValueError("compare needs at least one model")
-    specs = [read_model(m) for m in models]  # validate every model before any run
+    # Every model is validated before any run.
+    specs = [m if isinstance(m, ModelSpec) else read_model(m) for m in models]
     names = [s.name for s in specs]
     if len(set(names)) != len(names):
         raise ValueError(f"the models' names must differ, got {names}")
     records, trees = {}, {}
-    for m, s in zip(models, specs, strict=True):
-        records[s.name], trees[s.name] = _run_model(m, obs, settings, outdir, progress)
+    for s in specs:
+        records[s.name], trees[s.name] = _run_model(s, obs, settings, outdir, progress)
     ln_z = {k: r["nested"]["ln_z"] for k, r in records.items()}
     err = {k: r["nested"]["ln_z_err"] for k, r in records.items()}
     result = {
@@ -314,7 +314,7 @@ def compare(
             free_dt = trees["free-response"]
         else:
             _, free_dt = _run_model(
-                "free-response", obs, settings, outdir, progress, evidence=False
+                read_model("free-response"), obs, settings, outdir, progress, evidence=False
             )
         result["continuous"] = _continuous(obs, free_dt, progress)
     result["caveats"] = _caveats(result, obs)
@@ -452,12 +452,11 @@ def to_markdown(result) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _figure(result):
-    import matplotlib
+def _figure(result) -> bytes:
+    """The comparison figure as PNG bytes (the report layer's Agg setup and writer)."""
+    from lensinfer.report.figures import _plt, _png
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
+    plt = _plt()
     c = result.get("continuous")
     fig, axes = plt.subplots(1, 2 if c else 1, figsize=(7.0, 3.0), squeeze=False)
     ax = axes[0, 0]
@@ -499,24 +498,17 @@ def _figure(result):
         ax.set_ylabel("posterior density")
         ax.legend(fontsize=6)
     fig.tight_layout()
-    return fig
+    return _png(fig)
 
 
 def _write_outputs(result, outdir):
-    import io
-
     from lensinfer.inference.results import write_bytes, write_summary
 
     os.makedirs(outdir, exist_ok=True)
-    fig = _figure(result)
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=150)
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
     # Everything is rendered in memory first; the files are then written
     # atomically, the JSON last.
+    png = _figure(result)
     md = to_markdown(result)
-    write_bytes(buf.getvalue(), os.path.join(outdir, "compare.png"))
+    write_bytes(png, os.path.join(outdir, "compare.png"))
     write_bytes(md.encode("utf-8"), os.path.join(outdir, "compare.md"))
     write_summary(result, os.path.join(outdir, "compare.json"))
