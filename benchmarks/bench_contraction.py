@@ -39,7 +39,10 @@ def _build(theta, prescription, kwargs):
     kw = dict(kwargs)
     if "response_index" in kw:
         kw["response_index"] = nu
-    return contract_halo(halo, Sersic(10.0**log_ms, r_eff, n), prescription, r200c=r200, **kw)
+    # z and the cosmology: the Gnedin forms solve r_vir (which normalises their
+    # orbit-averaged radius) from them; the others ignore them.
+    stars = Sersic(10.0**log_ms, r_eff, n)
+    return contract_halo(halo, stars, prescription, r200c=r200, z=Z, cosmology=COSMO, **kw)
 
 
 THETA = jnp.array([13.3, 6.0, 11.5, 7.0, 4.0, 0.6])

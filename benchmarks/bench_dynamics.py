@@ -56,7 +56,8 @@ def _galaxy(theta, contracted=True):
     halo = NFW.from_m200c(10.0**log_m, c, Z, COSMO)
     if contracted:
         r200 = radius_from_mass(10.0**log_m, Z, cosmology=COSMO)
-        halo = contract_halo(halo, stars, "gnedin04", r200c=r200)
+        # z and the cosmology: r_vir normalises the orbit-averaged radius.
+        halo = contract_halo(halo, stars, "gnedin04", r200c=r200, z=Z, cosmology=COSMO)
     return stars, stars + halo
 
 

@@ -37,11 +37,27 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 
-__all__ = ["Evidence", "UnitCubeProblem", "importance_evidence", "nested_evidence", "problem_of"]
+__all__ = [
+    "Evidence",
+    "NonFiniteLikelihood",
+    "UnitCubeProblem",
+    "importance_evidence",
+    "nested_evidence",
+    "problem_of",
+]
 
-#: Log-likelihood returned for points where the model is undefined (NaN):
-#: effectively zero likelihood, but finite so the samplers' arithmetic holds.
+#: Log-likelihood handed to the samplers where the prior excludes a point (the
+#: baryon budget gives -inf there): zero likelihood, but finite so the samplers'
+#: arithmetic holds.  A NaN is never mapped to it: it raises NonFiniteLikelihood.
 LOG_ZERO = -1.0e300
+
+
+class NonFiniteLikelihood(RuntimeError):
+    """The log-likelihood was NaN (or +inf) at a point of the prior box.
+
+    The evidence code refuses such points instead of reading them as zero
+    likelihood, which would silently bias ln Z.
+    """
 
 
 @dataclasses.dataclass(frozen=True)
@@ -75,7 +91,7 @@ class Evidence:
 
 @dataclasses.dataclass(frozen=True)
 class UnitCubeProblem:
-    """What an evidence estimator needs: a log-likelihood on the unit cube.
+    r"""What an evidence estimator needs: a log-likelihood on the unit cube.
 
     Attributes
     ----------
@@ -83,15 +99,25 @@ class UnitCubeProblem:
         Parameter names, one per cube coordinate.
     log_likelihood : callable
         JAX function of one point u (shape (d,)) returning the scalar
-        log-likelihood of :math:`T(u)`.
+        log-likelihood of :math:`T(u)`, plus -inf where the prior excludes
+        the point (a prior restricted to part of the box).
     to_unit_cube : callable or None
         JAX function mapping a dict of parameter arrays to cube points
         (..., d); needed by :func:`importance_evidence`.
+    log_prior_volume : float
+        ln of the share of the box the prior allows (0 for the whole box).
+        The prior is the box's, restricted and divided by that share, so
+        :math:`\ln Z = \ln Z_{\rm box} - ` ``log_prior_volume``.
+    point_names : callable or None
+        Maps a cube point to a dict of named parameter values (for error
+        messages).
     """
 
     names: tuple
     log_likelihood: Callable
     to_unit_cube: Callable | None = None
+    log_prior_volume: float = 0.0
+    point_names: Callable | None = None
 
     @property
     def n_dim(self) -> int:
@@ -103,13 +129,39 @@ def problem_of(lens) -> UnitCubeProblem:
 
     def log_likelihood(u):
         params = lens.prior_transform(u)
-        return sum(lens.log_likelihood_terms(params).values())
+        return sum(lens.log_likelihood_terms(params).values()) + lens.log_constraint(params)
 
-    return UnitCubeProblem(tuple(lens.parameter_names), log_likelihood, lens.to_unit_cube)
+    def point_names(u):
+        return {k: float(v) for k, v in lens.prior_transform(jnp.asarray(u)).items()}
+
+    return UnitCubeProblem(
+        tuple(lens.parameter_names),
+        log_likelihood,
+        lens.to_unit_cube,
+        log_prior_volume=float(lens.log_prior_volume),
+        point_names=point_names,
+    )
 
 
 def _safe(log_l):
-    return jnp.where(jnp.isfinite(log_l), log_l, LOG_ZERO)
+    """-inf (excluded by the prior) -> LOG_ZERO; NaN and +inf are kept for _refuse."""
+    return jnp.where(log_l == -jnp.inf, LOG_ZERO, log_l)
+
+
+def _refuse(problem: UnitCubeProblem, values, points) -> None:
+    """Raise NonFiniteLikelihood naming the first point whose value is NaN or +inf."""
+    values = np.asarray(values, dtype=float)
+    bad = ~np.isfinite(values)
+    if not np.any(bad):
+        return
+    k = int(np.flatnonzero(bad)[0])
+    u = np.asarray(points, dtype=float).reshape(len(values), -1)[k]
+    where = problem.point_names(u) if problem.point_names is not None else u.tolist()
+    raise NonFiniteLikelihood(
+        f"the log-likelihood is {values[k]} at {int(bad.sum())} of {len(values)} evaluated "
+        f"point(s), e.g. at {where}; the evidence is not computed (a NaN would silently "
+        "count as zero likelihood): report the model and this point"
+    )
 
 
 def nested_evidence(
@@ -148,7 +200,10 @@ def nested_evidence(
     f(np.full(problem.n_dim, 0.5)).block_until_ready()  # compile before timing calls
 
     def log_l(u):
-        return float(f(u))
+        value = float(f(u))
+        if not math.isfinite(value):
+            _refuse(problem, [value], [u])
+        return value
 
     sampler = dynesty.NestedSampler(
         log_l,
@@ -163,7 +218,7 @@ def nested_evidence(
     r = sampler.results
     info = float(r.information[-1])
     return Evidence(
-        ln_z=float(r.logz[-1]),
+        ln_z=float(r.logz[-1]) - problem.log_prior_volume,
         ln_z_err=float(r.logzerr[-1]),
         method="nested (dynesty)",
         n_likelihood=int(np.sum(r.ncall)),
@@ -176,6 +231,7 @@ def nested_evidence(
             "sample": "rwalk",
             "seed": seed,
             "iterations": int(r.niter),
+            "log_prior_volume": problem.log_prior_volume,
             "information_nats": info,
             "efficiency_percent": float(r.eff),
         },
@@ -265,10 +321,11 @@ def importance_evidence(
         return jax.lax.map(lambda xi: _safe(problem.log_likelihood(jax.nn.sigmoid(xi))), xs)
 
     log_l = np.asarray(batch(jnp.asarray(x)))
+    _refuse(problem, log_l, 1.0 / (1.0 + np.exp(-x)))
     log_w = log_l + log_p - log_q
     m = np.max(log_w)
     w = np.exp(log_w - m)
-    ln_z = m + math.log(np.mean(w))
+    ln_z = m + math.log(np.mean(w)) - problem.log_prior_volume
     err = float(np.std(w, ddof=1) / (math.sqrt(len(w)) * np.mean(w)))
     # psislw smooths the weights exp(-input) (it is written for PSIS-LOO,
     # whose log ratios are minus log-likelihoods), hence the sign.
@@ -284,6 +341,7 @@ def importance_evidence(
             f" in logit(u) + {prior_fraction:g} prior",
             "n_posterior_draws": int(x_post.shape[0]),
             "pareto_k": float(khat),
+            "log_prior_volume": problem.log_prior_volume,
             "effective_sample_size": float(np.sum(w) ** 2 / np.sum(w**2)),
             "seed": seed,
         },

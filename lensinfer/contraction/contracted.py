@@ -11,6 +11,7 @@ import numpy as np
 from lensinfer import _spline
 from lensinfer.contraction._radius import overdensity_radius
 from lensinfer.contraction.prescriptions import resolve_prescription
+from lensinfer.halo import virial_overdensity
 from lensinfer.profiles.base import SphericalProfile, as_float, as_profile
 
 __all__ = ["ContractedHalo", "ScaledProfile", "contract_halo"]
@@ -34,6 +35,14 @@ _SPLINE_S = _spline.second_derivative_operator(GRID_N, _GRID_H)
 #: 2 < c < 20, 10.5 < log10 M* < 12, -0.45 < nu < 2, all prescriptions); 6
 #: leave a margin, and a test checks the residual on such draws.
 N_NEWTON = 6
+
+#: Newton steps (gradient-stopped) of the virial-radius solve before its
+#: differentiable step.  From r200c (200 / Delta_vir)^(1/3), 3 steps reach
+#: |d ln r| < 2e-14 on 2000 random NFW and generalised-NFW halos (11 < log10
+#: M200c < 15.5, 1 < c < 30, 0 < z < 3, inner slope 0-1.9; measured while
+#: writing this); 6 leave a margin, and a test checks r_vir against scipy.
+#: Cost: ~0.5 us per call jitted on one CPU core (30 steps: ~2 us).
+N_VIRIAL_STEPS = 6
 
 #: Gauss–Legendre nodes of the projection of the contraction's mass change,
 #: int dM(R cosh t) sech^2 t dt: 32 on [0, 4] (where sech^2 t > 1e-3) and 16
@@ -64,21 +73,50 @@ class ScaledProfile(SphericalProfile):
         return self.factor * self.profile.projected_mass(R)
 
 
-def _orbit_radius(r, r200, a, w):
-    """rbar = A r200 (r / r200)^w, or r itself when A is None."""
+def _orbit_radius(r, r_orbit, a, w):
+    r"""Orbit-averaged radius :math:`\bar r = A\,r_{\rm orb}\,(r/r_{\rm orb})^w`.
+
+    Gnedin et al. (2004, ApJ 616, 16, eq. 3 area; from memory) fit the
+    orbit-averaged radius of particles now at r in their simulated halos with
+    this power law normalised by the halo's virial radius,
+    :math:`r_{\rm orb} = r_{\rm vir}` (Bryan & Norman 1998 overdensity), with
+    A = 0.85, w = 0.8; Gnedin et al. (2011, arXiv:1108.5736) refit A = 1.6,
+    w = 0.8 (from memory).  Returns r itself when A is None (rbar = r).
+    """
     if a is None:
         return r
-    return a * r200 * jnp.exp(w * jnp.log(r / r200))
+    return a * r_orbit * jnp.exp(w * jnp.log(r / r_orbit))
 
 
-def _orbit_radius_from_log(x, log_r200, a, w):
+def _orbit_radius_from_log(x, log_r_orbit, a, w):
     """rbar for r = exp(x), with a single exp (no pow: pow costs ~5 exps on CPU)."""
     if a is None:
         return jnp.exp(x)
-    return jnp.exp(jnp.log(a) + log_r200 + w * (x - log_r200))
+    return jnp.exp(jnp.log(a) + log_r_orbit + w * (x - log_r_orbit))
 
 
-def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
+def _virial_radius(halo, z, cosmology, r200c):
+    r"""The halo's virial radius r_vir in kpc (Bryan & Norman 1998 overdensity).
+
+    .. math::
+
+        M(<r_{\rm vir}) = \frac{4\pi}{3}\,\Delta_{\rm vir}(z)\,\rho_c(z)\,
+            r_{\rm vir}^3,
+
+    with :math:`\Delta_{\rm vir}` relative to the critical density from Bryan &
+    Norman (1998, ApJ 495, 80, eq. 6), :func:`lensinfer.halo.virial_overdensity`.
+    Newton in ln r from :math:`r_{200c}\,(200/\Delta_{\rm vir})^{1/3}` (the
+    root if no mass lay beyond r200c), ``N_VIRIAL_STEPS`` gradient-stopped
+    steps, then one differentiable step
+    (:func:`~lensinfer.contraction._radius.overdensity_radius`).
+    """
+    delta = virial_overdensity(z, cosmology)
+    threshold = delta * cosmology.critical_density(z)
+    r_guess = r200c * jnp.cbrt(200.0 / delta)
+    return overdensity_radius(halo, threshold, r_guess, n_steps=N_VIRIAL_STEPS)
+
+
+def _solve_initial_radii(r_f, m_gal_f, halo, r_orbit, f_gal, a, w, nu):
     r"""ln r_i for each final radius r_f (vectorised over the grid).
 
     Solves, for x = ln r_i,
@@ -96,11 +134,11 @@ def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
     """
     log_r_f = jnp.log(r_f)
 
-    def resid(x, halo, m_gal_f, f_gal, nu, log_r200):
-        m_i = halo.enclosed_mass(_orbit_radius_from_log(x, log_r200, a, w))
+    def resid(x, halo, m_gal_f, f_gal, nu, log_r_orbit):
+        m_i = halo.enclosed_mass(_orbit_radius_from_log(x, log_r_orbit, a, w))
         return log_r_f - x + nu * jnp.log(m_gal_f / m_i + 1.0 - f_gal)
 
-    args = (halo, m_gal_f, f_gal, nu, jnp.log(r200))
+    args = (halo, m_gal_f, f_gal, nu, jnp.log(r_orbit))
     args_sg = jax.lax.stop_gradient(args)
 
     def dresid(x, args):
@@ -109,10 +147,10 @@ def _solve_initial_radii(r_f, m_gal_f, halo, r200, f_gal, a, w, nu):
     # Start from r_i = r_f (M_f / M_i)^nu with M_i a local power law of slope
     # s = dlnM_i/dlnr at r_f: x0 = ln r_f + nu ln(M_f / M_i(r_f)) / (1 + nu s).
     # From there Newton reaches |F| < 1e-12 in 4 steps over the tested box.
-    halo_sg, m_gal_sg, f_sg, nu_sg, log_r200_sg = args_sg
+    halo_sg, m_gal_sg, f_sg, nu_sg, log_r_orbit_sg = args_sg
 
     def log_m_i(v):
-        return jnp.log(halo_sg.enclosed_mass(_orbit_radius_from_log(v, log_r200_sg, a, w)))
+        return jnp.log(halo_sg.enclosed_mass(_orbit_radius_from_log(v, log_r_orbit_sg, a, w)))
 
     lm_i0, s0 = jax.jvp(log_m_i, (log_r_f,), (jnp.ones_like(r_f),))
     x = log_r_f + nu_sg * jnp.log(m_gal_sg / jnp.exp(lm_i0) + 1.0 - f_sg) / (1.0 + nu_sg * s0)
@@ -236,6 +274,7 @@ def contract_halo(
     response_index=None,
     orbit_scale=None,
     orbit_exponent=None,
+    r_orbit=None,
 ):
     r"""The dark matter of ``halo`` after the galaxy has formed inside it.
 
@@ -252,25 +291,39 @@ def contract_halo(
 
     which for nu = 1 is the adiabatic invariant :math:`r M(\bar r) = {\rm const}`.
 
-    ====================  ==========================  =====================
-    prescription          orbit-averaged radius rbar  nu
-    ====================  ==========================  =====================
-    ``"none"``            —                           0 (halo × (1 − f))
-    ``"blumenthal86"``    r                           1
-    ``"gnedin04"``        0.85 r200 (r/r200)^0.8      1
-    ``"gnedin11"``        1.6 r200 (r/r200)^0.8       1
-    ``"orbit_averaged"``  A r200 (r/r200)^w           1
-    ``"power"``           r                           ``response_index``
-    ====================  ==========================  =====================
+    ====================  ==============================  =====================
+    prescription          orbit-averaged radius rbar      nu
+    ====================  ==============================  =====================
+    ``"none"``            —                               0 (halo × (1 − f))
+    ``"blumenthal86"``    r                               1
+    ``"gnedin04"``        0.85 r_vir (r/r_vir)^0.8        1
+    ``"gnedin11"``        1.6 r_vir (r/r_vir)^0.8         1
+    ``"orbit_averaged"``  A r_vir (r/r_vir)^w             1
+    ``"power"``           r                               ``response_index``
+    ====================  ==============================  =====================
 
     For the Gnedin forms the dark-matter mass inside the orbit-averaged radius
     is taken as conserved, :math:`M_{DM,f}(\bar r_f) = (1 - f)M_i(\bar r_i)`
-    (Gnedin et al. 2004, eq. 2 and section 3).  nu = 0 is no response, nu = 1
+    (Gnedin et al. 2004, eq. 2 and section 3), and the orbit-averaged radius
+    is normalised, as in their fit (eq. 3 area; from memory), by the halo's
+    virial radius :math:`r_{\rm vir}`, inside which the mean density is
+    :math:`\Delta_{\rm vir}(z)\,\rho_c(z)` with :math:`\Delta_{\rm vir}` of
+    Bryan & Norman (1998, eq. 6):
+
+    .. math::
+
+        \bar r = A\,r_{\rm vir}\left(\frac{r}{r_{\rm vir}}\right)^{w},
+        \qquad M_i(<r_{\rm vir}) = \frac{4\pi}{3}\,\Delta_{\rm vir}(z)\,
+            \rho_c(z)\,r_{\rm vir}^3 .
+
+    Only this normalisation uses r_vir; f, the response grid and the outer join
+    are tied to r200c.  nu = 0 is no response, nu = 1
     is Blumenthal et al. (1986), nu < 0 expands the halo (Dutton et al. 2007,
     section 2.3).  The validated range is nu >= -0.3: below about -0.4 the
     shells cross at the centre of a concentrated Sérsic galaxy (the dark-matter
-    density turns negative), and the solution is no longer a physical halo.  The response is applied at all radii; beyond r200c,
-    where the enclosed initial mass exceeds M200c, it is a slight expansion.
+    density turns negative), and the solution is no longer a physical halo.
+    The response is applied at all radii; beyond r200c, where the enclosed
+    initial mass exceeds M200c, it is a slight expansion.
 
     Parameters
     ----------
@@ -288,11 +341,21 @@ def contract_halo(
         r200c of the halo in kpc.  If omitted, ``z`` and ``cosmology`` are
         needed and r200c is solved from the halo's profile.
     z, cosmology : float, Cosmology
-        The halo's redshift and the cosmology (only when r200c is omitted).
+        The halo's redshift and the cosmology: needed when r200c is omitted,
+        and for ``"gnedin04"``, ``"gnedin11"`` and ``"orbit_averaged"`` when
+        ``r_orbit`` is omitted (to solve for r_vir).  Otherwise unused.
     response_index : float
         nu, for ``"power"`` (traceable: NUTS can sample it).
     orbit_scale, orbit_exponent : float
-        A and w, for ``"orbit_averaged"``.
+        A and w, for ``"orbit_averaged"`` (traceable: NUTS can sample them).
+    r_orbit : float, optional
+        The radius that normalises the orbit-averaged radius, kpc:
+        :math:`\bar r = A\,r_{\rm orb}(r/r_{\rm orb})^w`.  Defaults to the
+        halo's virial radius r_vir, solved from the halo's profile, ``z`` and
+        ``cosmology`` (a differentiable Newton root).  Pass it to reuse a known
+        r_vir, or ``r_orbit=r200c`` for the r200c-normalised variant.  Ignored
+        by the prescriptions without orbit averaging (``"none"``,
+        ``"blumenthal86"``, ``"power"``).
 
     Returns
     -------
@@ -301,9 +364,18 @@ def contract_halo(
         both have density, enclosed_mass, surface_density and projected_mass
         in kpc and Msun.
 
+    Raises
+    ------
+    ValueError
+        For an unknown prescription or a missing/extra response parameter; when
+        neither r200c nor both z and cosmology are given; and for an
+        orbit-averaged prescription when neither r_orbit nor both z and
+        cosmology are given.
+
     References
     ----------
     Blumenthal G. R., Faber S. M., Flores R., Primack J. R., 1986, ApJ 301, 27.
+    Bryan G. L., Norman M. L., 1998, ApJ 495, 80 (eq. 6: Delta_vir).
     Gnedin O. Y., Kravtsov A. V., Klypin A. A., Nagai D., 2004, ApJ 616, 16.
     Gnedin O. Y. et al., 2011, arXiv:1108.5736 (A = 1.6, w = 0.8; from memory).
     Dutton A. A., van den Bosch F. C., Dekel A., Courteau S., 2007, ApJ 654, 27.
@@ -316,6 +388,12 @@ def contract_halo(
         threshold = 200.0 * cosmology.critical_density(z)
         r200c = overdensity_radius(halo, threshold, 300.0)
     r200c = as_float(r200c)
+    if a is not None and r_orbit is None and (z is None or cosmology is None):
+        raise ValueError(
+            f"prescription {prescription!r} normalises the orbit-averaged radius by the "
+            "halo's virial radius: contract_halo needs r_orbit (the halo's virial radius, "
+            "kpc), or both z and cosmology to solve for it"
+        )
     m200c = halo.enclosed_mass(r200c)
     if galaxy_fraction is None:
         galaxy_fraction = galaxy.enclosed_mass(r200c) / m200c
@@ -324,10 +402,15 @@ def contract_halo(
         return ScaledProfile(halo, 1.0 - f_gal)
 
     nu = as_float(nu)
+    if a is None:
+        r_orbit = r200c  # unused: rbar = r
+    elif r_orbit is None:
+        r_orbit = _virial_radius(halo, z, cosmology, r200c)
+    r_orbit = as_float(r_orbit)
     log_r0 = jnp.log(r200c) + _GRID_X[0]
     r_f = jnp.exp(jnp.log(r200c) + _GRID_X)
-    m_gal_f = galaxy.enclosed_mass(_orbit_radius(r_f, r200c, a, w))
-    x_i = _solve_initial_radii(r_f, m_gal_f, halo, r200c, f_gal, a, w, nu)
+    m_gal_f = galaxy.enclosed_mass(_orbit_radius(r_f, r_orbit, a, w))
+    x_i = _solve_initial_radii(r_f, m_gal_f, halo, r_orbit, f_gal, a, w, nu)
     log_m = jnp.log(1.0 - f_gal) + jnp.log(halo.enclosed_mass(jnp.exp(x_i)))
     d2 = jnp.dot(_SPLINE_S, log_m)
     outer_ratio = jnp.exp(log_m[-1]) / ((1.0 - f_gal) * halo.enclosed_mass(r_f[-1]))

@@ -14,8 +14,11 @@ class Prescription:
     name : str
         The prescription's name.
     orbit_scale, orbit_exponent : float or None
-        A and w of the orbit-averaged radius rbar = A r200 (r / r200)^w; None
-        means rbar = r (no orbit averaging).
+        A and w of the orbit-averaged radius rbar = A r_vir (r / r_vir)^w, with
+        r_vir the halo's virial radius (mean density Delta_vir rho_c, Delta_vir
+        of Bryan & Norman 1998, ApJ 495, 80, eq. 6), as in Gnedin et al. (2004,
+        ApJ 616, 16, eq. 3 area; from memory); None means rbar = r (no orbit
+        averaging).
     response_index : float or None
         nu of r_f / r_i = (M_i / M_f)^nu; 1 for the adiabatic-invariant
         prescriptions, None when the caller must give it ("power").

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import jax
 import numpy as np
 
@@ -20,20 +22,48 @@ def draw_prior(model, key, n_draws: int) -> dict:
     ``log_prior`` (array).
     """
     n_par = len(model.plan)
-    u = jax.random.uniform(key, (n_draws, n_par), minval=1e-9, maxval=1 - 1e-9)
+    # The prior is the sequential box restricted by the baryon budget: draw from
+    # the box and keep the allowed draws (rejection sampling), with enough
+    # spare draws that one pass almost always suffices.
+    allowed_share = math.exp(getattr(model, "log_prior_volume", 0.0))
+    n_box = math.ceil(n_draws / allowed_share * 1.05) + 16
 
     def one(ui):
         p = model.prior_transform(ui)
         d = model.derive(p)
         return p, d, model.log_likelihood_terms(p, d), model.log_prior(p)
 
-    p, d, ll, lp = jax.jit(jax.vmap(one))(u)
+    run = jax.jit(jax.vmap(one))
     conv = lambda tree: {k: np.asarray(v) for k, v in tree.items()}  # noqa: E731
+    parts = []
+    kept = 0
+    for _ in range(20):
+        key, sub = jax.random.split(key)
+        u = jax.random.uniform(sub, (n_box, n_par), minval=1e-9, maxval=1 - 1e-9)
+        p, d, ll, lp = run(u)
+        ok = np.isfinite(np.asarray(lp))
+        parts.append((conv(p), conv(d), conv(ll), np.asarray(lp), ok))
+        kept += int(ok.sum())
+        if kept >= n_draws:
+            break
+    else:
+        raise RuntimeError(
+            f"only {kept} of {20 * n_box} prior draws satisfy the baryon budget; "
+            "the model's priors leave almost no allowed region"
+        )
+
+    def stack(i):
+        if isinstance(parts[0][i], dict):
+            return {
+                k: np.concatenate([q[i][k][q[4]] for q in parts])[:n_draws] for k in parts[0][i]
+            }
+        return np.concatenate([q[i][q[4]] for q in parts])[:n_draws]
+
     return {
-        "params": conv(p),
-        "derived": conv(d),
-        "log_likelihood": conv(ll),
-        "log_prior": np.asarray(lp),
+        "params": stack(0),
+        "derived": stack(1),
+        "log_likelihood": stack(2),
+        "log_prior": stack(3),
     }
 
 

@@ -13,9 +13,10 @@ from collections.abc import Callable
 
 import jax
 import jax.numpy as jnp
+import numpy as np
 
 from lensinfer.cosmology import Cosmology
-from lensinfer.model.priors import Normal, TruncatedNormal, Uniform
+from lensinfer.model.priors import Normal, TabulatedLogDensity, TruncatedNormal, Uniform
 from lensinfer.spec import ModelSpec, Observation, PriorSpec
 
 __all__ = [
@@ -34,6 +35,8 @@ PARAMETERS = {
     "log10_imf_factor": ("dex", "log10 alpha_IMF = log10(M* / M*_ref)"),
     "inner_slope": ("", "inner logarithmic density slope of a generalized NFW halo"),
     "response_nu": ("", "halo response index nu of r_f / r_i = (M_i / M_f)^nu"),
+    "orbit_scale": ("", "A of the orbit-averaged radius rbar = A r_vir (r / r_vir)^w"),
+    "orbit_exponent": ("", "w of the orbit-averaged radius rbar = A r_vir (r / r_vir)^w"),
     "slope": ("", "3-D logarithmic slope of a power-law total density"),
     "theta_e_arcsec": (
         "arcsec",
@@ -54,6 +57,8 @@ PARAMETER_RANGES = {
     "log10_imf_factor": (-1.0, 1.5),
     "inner_slope": (0.0, 2.5),
     "response_nu": (-0.3, 3.0),
+    "orbit_scale": (0.1, 5.0),
+    "orbit_exponent": (0.2, 1.5),
     "slope": (1.05, 2.95),
     "theta_e_arcsec": (0.05, 10.0),
     "r_eff_kpc": (0.01, 200.0),
@@ -117,7 +122,7 @@ class ParameterPlan:
 
 @dataclasses.dataclass(frozen=True)
 class SystemModel:
-    """A model spec applied to one observation.
+    r"""A model spec applied to one observation.
 
     Attributes
     ----------
@@ -129,6 +134,14 @@ class SystemModel:
         earlier values, e.g. M*_ref on M200c through a stellar-to-halo relation).
     fixed : dict
         Parameters held fixed (named IMF factor, exact nuisance values).
+    kpc_per_arcsec : float
+    baryon_fraction : float
+        :math:`f_b = \Omega_b/\Omega_m` of the cosmology (the baryon budget).
+    log_prior_volume : float
+        ln of the fraction of the parameter box (the product of the
+        sequential priors in :attr:`plan`) that the baryon budget allows.  The
+        prior is that product restricted to the allowed region and divided by
+        this fraction; evidences computed over the box subtract it.
     """
 
     spec: ModelSpec
@@ -137,6 +150,8 @@ class SystemModel:
     plan: tuple
     fixed: dict
     kpc_per_arcsec: float
+    baryon_fraction: float = math.nan
+    log_prior_volume: float = 0.0
 
     @property
     def parameter_names(self) -> list[str]:
@@ -175,6 +190,36 @@ class SystemModel:
     def _value(self, params, name):
         return params[name] if name in params else self.fixed[name]
 
+    # ---------------------------------------------------------- baryon budget
+    @property
+    def has_baryon_budget(self) -> bool:
+        """True for stars + halo models, whose prior obeys M* <= f_b M200c."""
+        return self.spec.mass_model == "decomposition"
+
+    def _log10_mstar_max(self, params):
+        """log10 of the largest stellar mass the baryon budget allows, f_b M200c."""
+        return self._value(params, "log10_m200c") + math.log10(self.baryon_fraction)
+
+    def baryon_budget_ok(self, params):
+        r"""Whether a draw respects the baryon budget :math:`M_* \le f_b M_{200c}`.
+
+        :math:`M_* = \alpha_{\rm IMF} M_{*,\rm ref}` is the galaxy's total
+        stellar mass and :math:`f_b = \Omega_b/\Omega_m` the cosmic baryon
+        fraction (:func:`lensinfer.halo.max_galaxy_fraction`): a galaxy cannot
+        hold more baryons than its halo brought in.  The total (not only the
+        part inside r200c) is bounded, so :math:`f_{\rm gal} \le f_b < 1` always.
+        """
+        if not self.has_baryon_budget:
+            return jnp.asarray(True)
+        log10_mstar = self._value(params, "log10_mstar_ref") + self._value(
+            params, "log10_imf_factor"
+        )
+        return log10_mstar <= self._log10_mstar_max(params)
+
+    def log_constraint(self, params):
+        """0 where the draw is allowed by the baryon budget, -inf where it is not."""
+        return jnp.where(self.baryon_budget_ok(params), 0.0, -jnp.inf)
+
     def build_profiles(self, params):
         """(stars, dark_matter, halo, extras) profiles for one draw."""
         from lensinfer.contraction import contract_halo
@@ -184,9 +229,16 @@ class SystemModel:
         obs = self.observation
         r_eff = self._value(params, "r_eff_kpc")
         n = self._value(params, "sersic_index")
-        mstar = 10.0 ** (
-            self._value(params, "log10_mstar_ref") + self._value(params, "log10_imf_factor")
+        log10_mstar = self._value(params, "log10_mstar_ref") + self._value(
+            params, "log10_imf_factor"
         )
+        if self.spec.mass_model != "total_power_law":
+            # Outside the baryon budget (excluded by log_constraint) the physics
+            # would take log(1 - f_gal) of f_gal > 1; evaluate it at the budget's
+            # edge instead, so values and gradients stay finite there (the draw
+            # has zero prior density either way).  Inside, this changes nothing.
+            log10_mstar = jnp.minimum(log10_mstar, self._log10_mstar_max(params))
+        mstar = 10.0**log10_mstar
         if obs.light_profile == "sersic":
             stars = Sersic(mstar, r_eff, n)
         else:
@@ -218,7 +270,20 @@ class SystemModel:
         kwargs = {}
         if self.spec.prescription == "power":
             kwargs["response_index"] = self._value(params, "response_nu")
-        dm = contract_halo(halo, stars, self.spec.prescription, r200c=r200, **kwargs)
+        if self.spec.prescription == "orbit_averaged":
+            kwargs["orbit_scale"] = self._value(params, "orbit_scale")
+            kwargs["orbit_exponent"] = self._value(params, "orbit_exponent")
+        # z and cosmology let contract_halo find the virial radius that
+        # normalises the orbit-averaged radius (Gnedin et al. 2004, 2011).
+        dm = contract_halo(
+            halo,
+            stars,
+            self.spec.prescription,
+            r200c=r200,
+            z=z_l,
+            cosmology=self.cosmology,
+            **kwargs,
+        )
         return stars, dm, halo, {"r200c": r200, "m200c": m200, "c200c": c200}
 
     def derive(self, params) -> dict:
@@ -343,11 +408,16 @@ class SystemModel:
         return {site: key for site, (key, _) in self.likelihood_sites().items()}
 
     def log_prior(self, params):
-        """Sum of the prior log densities (in the sampled parameters)."""
+        """The normalised prior log density (in the sampled parameters).
+
+        The sum of the sequential priors' log densities, restricted to the
+        baryon budget (-inf outside) and renormalised by
+        :attr:`log_prior_volume`.
+        """
         total = 0.0
         for p in self.plan:
             total = total + p.prior(params).distribution().log_prob(params[p.name])
-        return total
+        return total + self.log_constraint(params) - self.log_prior_volume
 
     # -------------------------------------------------------------- numpyro
     def numpyro_model(self, observed: bool = True):
@@ -362,6 +432,8 @@ class SystemModel:
         params = {}
         for p in self.plan:
             params[p.name] = numpyro.sample(p.name, p.prior(params).distribution())
+        if self.has_baryon_budget:
+            numpyro.factor("baryon_budget", self.log_constraint(params))
         d = self.derive(params)
         for name, value in d.items():
             numpyro.deterministic(name, value)
@@ -388,7 +460,12 @@ def _cosmology_for(observation: Observation) -> Cosmology:
 
 def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
     """Turn a validated model spec and observation into a :class:`SystemModel`."""
-    from lensinfer.halo import concentration, concentration_scatter_dex, stellar_mass_from_halo
+    from lensinfer.halo import (
+        concentration,
+        concentration_scatter_dex,
+        max_galaxy_fraction,
+        stellar_mass_from_halo,
+    )
     from lensinfer.stellar import imf_mass_factor
 
     cosmo = _cosmology_for(observation)
@@ -408,19 +485,27 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
     if spec.mass_model == "decomposition":
         m = spec.log10_m200c
         if m.kind == "relation":
-            add_simple("log10_m200c", PriorSpec("uniform", low=m.low, high=m.high))
+            add_halo_mass_prior(add, m, observation, z_l)
             relation = m.name
+            # The relations predict Chabrier-scale (reference-IMF) masses; an SED
+            # mass quoted under another IMF is that mass times the IMF mass factor.
+            log10_to_ref = _log10_chabrier_to_reference(observation.reference_imf)
 
-            def mstar_prior(v, relation=relation):
+            def mstar_prior(v, relation=relation, shift=log10_to_ref):
                 med, scatter = stellar_mass_from_halo(
                     10.0 ** v["log10_m200c"], z_l, relation, cosmo
                 )
-                return Normal(jnp.log10(med), scatter)
+                return Normal(jnp.log10(med) + shift, scatter)
 
+            note = (
+                f" + {log10_to_ref:.3f} dex ({observation.reference_imf} SED masses)"
+                if observation.reference_imf != "chabrier03"
+                else ""
+            )
             add(
                 "log10_mstar_ref",
                 mstar_prior,
-                f"normal(stellar-to-halo relation {relation!r} at M200c, its scatter)",
+                f"normal(stellar-to-halo relation {relation!r} at M200c{note}, its scatter)",
             )
         else:
             add_simple("log10_m200c", m)
@@ -428,7 +513,8 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
         c = spec.log10_c200c
         if c.kind == "relation":
             rel = c.name
-            scatter = float(concentration_scatter_dex(rel))
+            population = c.population or "all"
+            scatter = float(concentration_scatter_dex(rel, population))
 
             def c_prior(v, rel=rel, scatter=scatter):
                 med = concentration(10.0 ** v["log10_m200c"], z_l, relation=rel, cosmology=cosmo)
@@ -437,7 +523,7 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
             add(
                 "log10_c200c",
                 c_prior,
-                f"normal(concentration-mass relation {rel!r}, {scatter} dex)",
+                f"normal(concentration-mass relation {rel!r}, {scatter} dex, {population} haloes)",
             )
         else:
             add_simple("log10_c200c", c)
@@ -448,6 +534,13 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
                 add_simple("inner_slope", spec.inner_slope)
         if spec.prescription == "power":
             add_simple("response_nu", spec.response_nu)
+        if spec.prescription == "orbit_averaged":
+            for name in ("orbit_scale", "orbit_exponent"):
+                p = getattr(spec, name)
+                if p.kind == "fixed":
+                    fixed[name] = p.value
+                else:
+                    add_simple(name, p)
     else:
         add_simple("log10_mstar_ref", spec.log10_mstar_ref)
         add_simple("slope", spec.slope)
@@ -502,11 +595,88 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
             else:
                 add_simple(name, p)
 
-    return SystemModel(
+    lens = SystemModel(
         spec=spec,
         observation=observation,
         cosmology=cosmo,
         plan=tuple(plan),
         fixed=fixed,
         kpc_per_arcsec=kpc_per_arcsec,
+        baryon_fraction=float(max_galaxy_fraction(cosmo)),
     )
+    if lens.has_baryon_budget:
+        lens = dataclasses.replace(lens, log_prior_volume=allowed_log_volume(lens))
+    return lens
+
+
+#: Quasi-random points used to measure the baryon budget's share of the prior box.
+N_VOLUME_POINTS = 2**15
+
+
+def allowed_log_volume(lens: SystemModel, n_points: int = N_VOLUME_POINTS) -> float:
+    """ln of the fraction of the prior box that the baryon budget allows.
+
+    Scrambled Sobol points of the unit cube (scipy.stats.qmc, fixed seed) are
+    mapped through the prior transform; the allowed share is the fraction
+    that pass :meth:`SystemModel.baryon_budget_ok`.  With 2^15 points the
+    relative error of the fraction P is about sqrt((1 - P) / (N P)), below 1%
+    (0.01 in ln) whenever P > 0.25 (binomial; quasi-random points do better).
+
+    Raises
+    ------
+    ValueError
+        When no point is allowed: the priors cannot satisfy the budget.
+    """
+    from scipy.stats import qmc
+
+    u = qmc.Sobol(len(lens.plan), scramble=True, seed=12345).random(n_points)
+    u = np.clip(u, 1e-12, 1.0 - 1e-12)
+    ok = jax.jit(jax.vmap(lambda ui: lens.baryon_budget_ok(lens.prior_transform(ui))))(u)
+    frac = float(np.mean(np.asarray(ok)))
+    if frac == 0.0:
+        raise ValueError(
+            f"model {lens.spec.name!r}: no draw of its priors has a stellar mass "
+            f"M* <= f_b M200c (f_b = {lens.baryon_fraction:.3f}); widen the halo-mass "
+            "or IMF-factor priors"
+        )
+    return math.log(frac)
+
+
+def _log10_chabrier_to_reference(reference_imf: str) -> float:
+    """log10 of M*(reference IMF) / M*(Chabrier 2003) at equal light (10 Gyr)."""
+    if reference_imf == "chabrier03":
+        return 0.0
+    from lensinfer.stellar import imf_mass_factor
+
+    return float(
+        jnp.log10(imf_mass_factor(reference_imf, reference="chabrier03", age_gyr=_AGE_GYR))
+    )
+
+
+def add_halo_mass_prior(add, m: PriorSpec, observation: Observation, z_l: float) -> None:
+    """The prior on log10 M200c beside a stellar-to-halo relation.
+
+    ``abundance = "tinker08"`` (default): proportional to the halo mass
+    function dn/dlog M200c at the lens redshift (Tinker et al. 2008; see
+    :mod:`lensinfer.halo.abundance`), so that with the relation's
+    p(M*_ref | M200c) the joint prior gives p(M200c | M*_ref) as abundance
+    matching implies.  ``"uniform_in_log"``: uniform in log10 M200c (ignores
+    how rare massive haloes are; kept as an explicit choice).
+    """
+    if (m.abundance or "tinker08") == "uniform_in_log":
+        prior = Uniform(m.low, m.high)
+        add("log10_m200c", lambda v, prior=prior: prior, prior.describe() + " (uniform in log)")
+        return
+    from astropy.cosmology import realizations
+
+    from lensinfer.halo.abundance import log_mass_function_table
+
+    grid, logdn = log_mass_function_table(
+        z_l, m.low, m.high, getattr(realizations, observation.cosmology), model=m.abundance
+    )
+    prior = TabulatedLogDensity(
+        grid,
+        logdn,
+        label=f"halo mass function {m.abundance!r} (Tinker et al. 2008) at z = {z_l:g}",
+    )
+    add("log10_m200c", lambda v, prior=prior: prior, prior.describe())

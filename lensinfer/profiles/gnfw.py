@@ -49,15 +49,27 @@ class GeneralizedNFW(SphericalProfile):
 
     @classmethod
     def from_m200c(cls, m200c, c200c, inner_slope, z, cosmology) -> GeneralizedNFW:
-        r"""Build from M200c and c200c = r200c / r_s (as :meth:`NFW.from_m200c`).
+        r"""Build from M200c and the concentration c200c = r200c / r_{-2}.
 
-        rho_s follows from M(<r200c) = M200c with the quadrature enclosed mass.
+        Concentration–mass relations define c through :math:`r_{-2}`, where
+        the logarithmic density slope is -2.  For this profile
+        :math:`d\ln\rho/d\ln r = -\gamma - (3-\gamma)\,x/(1+x)`, which is -2
+        at :math:`x = 2 - \gamma`, so :math:`r_{-2} = (2 - \gamma)\,r_s`
+        (NFW: :math:`r_{-2} = r_s`) and
+
+        .. math:: r_s = \frac{r_{200c}}{(2 - \gamma)\, c_{200c}},
+
+        defined for :math:`\gamma < 2` (a steeper cusp has no radius of slope
+        -2; NaN is returned).  rho_s follows from M(<r200c) = M200c with the
+        quadrature enclosed mass.
         """
         m200c = as_float(to_internal(m200c, MSUN))
         c200c = as_float(c200c)
+        inner_slope = as_float(inner_slope)
         rho_c = cosmology.critical_density(z)
         r200 = (3.0 * m200c / (4.0 * jnp.pi * 200.0 * rho_c)) ** (1.0 / 3.0)
-        r_s = r200 / c200c
+        r_minus2_over_rs = jnp.where(inner_slope < 2.0, 2.0 - inner_slope, jnp.nan)
+        r_s = r200 / (c200c * r_minus2_over_rs)
         unit = cls(rho_s=1.0, r_s=r_s, inner_slope=inner_slope)
         return cls(rho_s=m200c / unit.enclosed_mass(r200), r_s=r_s, inner_slope=inner_slope)
 

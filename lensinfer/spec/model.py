@@ -17,7 +17,11 @@ __all__ = [
     "read_model",
 ]
 
-PRESCRIPTIONS = ("none", "blumenthal86", "gnedin04", "gnedin11", "power")
+PRESCRIPTIONS = ("none", "blumenthal86", "gnedin04", "gnedin11", "orbit_averaged", "power")
+#: Priors on log10 M200c available beside a stellar-to-halo relation.
+HALO_ABUNDANCE = ("tinker08", "uniform_in_log")
+#: Halo populations whose concentration scatter a relation prior may take.
+HALO_POPULATIONS = ("all", "relaxed")
 HALO_PROFILES = ("nfw", "gnfw")
 TOTAL_PROFILES = ("power_law",)
 
@@ -29,7 +33,12 @@ class PriorSpec:
     kind is one of "uniform" (low, high), "normal" (mean, sd), "fixed"
     (value), "imf" (value from a named IMF's mass factor; ``name``), or
     "relation" (a published scaling relation ``name``, with an optional
-    uniform range low/high for the quantity it is conditioned on).
+    range low/high for the quantity it is conditioned on).  For the halo mass
+    of a stellar-to-halo relation, ``abundance`` is the prior on
+    log10 M200c over that range: a halo mass function (``"tinker08"``, the
+    default) or ``"uniform_in_log"``.  For a concentration relation,
+    ``population`` is ``"all"`` (default) or ``"relaxed"`` haloes, which sets
+    the scatter.
     """
 
     kind: str
@@ -39,6 +48,8 @@ class PriorSpec:
     sd: float | None = None
     value: float | None = None
     name: str | None = None
+    abundance: str | None = None
+    population: str | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -62,6 +73,9 @@ class ModelSpec:
         Halo response.
     response_nu : PriorSpec or None
         Prior on nu for "power".
+    orbit_scale, orbit_exponent : PriorSpec or None
+        Priors (or fixed values) of A and w of the orbit-averaged radius
+        rbar = A r_vir (r / r_vir)^w for "orbit_averaged".
     slope, theta_e_arcsec : PriorSpec or None
         Total-mass power-law parameters.
     kinematics : dict
@@ -80,6 +94,8 @@ class ModelSpec:
     inner_slope: PriorSpec | None
     prescription: str | None
     response_nu: PriorSpec | None
+    orbit_scale: PriorSpec | None
+    orbit_exponent: PriorSpec | None
     slope: PriorSpec | None
     theta_e_arcsec: PriorSpec | None
     kinematics: dict
@@ -87,7 +103,15 @@ class ModelSpec:
     path: str
 
 
-def _prior(table: Table, name: str, *, allow=("uniform", "normal"), relations=(), imfs=()):
+def _prior(
+    table: Table,
+    name: str,
+    *,
+    allow=("uniform", "normal"),
+    relations=(),
+    imfs=(),
+    relation_options=(),
+):
     """Parse ``name = { prior = "uniform", low = .., high = .. }`` and friends."""
     raw = table.raw(name)
     key = table.key(name)
@@ -128,8 +152,17 @@ def _prior(table: Table, name: str, *, allow=("uniform", "normal"), relations=()
             )
         if low is not None and high <= low:
             raise SpecError(table.path, key + ".high", high, f"a number with high > low = {low}")
-        sub.finish(["relation", "low", "high"])
-        return PriorSpec("relation", low=low, high=high, name=rel)
+        extra = {}
+        if "abundance" in relation_options:
+            extra["abundance"] = sub.string(
+                "abundance", choices=HALO_ABUNDANCE, default=HALO_ABUNDANCE[0]
+            )
+        if "population" in relation_options:
+            extra["population"] = sub.string(
+                "population", choices=HALO_POPULATIONS, default=HALO_POPULATIONS[0]
+            )
+        sub.finish(["relation", "low", "high", *extra])
+        return PriorSpec("relation", low=low, high=high, name=rel, **extra)
     if sub.has("imf") and imfs:
         imf = sub.string("imf", choices=tuple(imfs))
         sub.finish(["imf"])
@@ -191,17 +224,30 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
     if not has_halo and not has_total:
         raise SpecError(path, "halo", None, one_of)
     halo_profile = m200 = c200 = gamma = prescription = nu = slope = theta_e = None
+    orbit_a = orbit_w = None
     if has_halo:
         mass_model = "decomposition"
         halo = top.table("halo")
         halo_profile = halo.string("profile", choices=HALO_PROFILES)
-        m200 = _prior(halo, "log10_m200c", relations=tuple(STELLAR_HALO_RELATIONS))
+        m200 = _prior(
+            halo,
+            "log10_m200c",
+            relations=tuple(STELLAR_HALO_RELATIONS),
+            relation_options=("abundance",),
+        )
         _check_range(path, "halo.log10_m200c", m200, 10.5, 16.0, "log10 M200c/Msun")
-        c200 = _prior(halo, "log10_c200c", relations=tuple(CONCENTRATION_RELATIONS))
+        c200 = _prior(
+            halo,
+            "log10_c200c",
+            relations=tuple(CONCENTRATION_RELATIONS),
+            relation_options=("population",),
+        )
         _check_range(path, "halo.log10_c200c", c200, -0.5, 1.7, "log10 c200c")
         if halo_profile == "gnfw":
             gamma = _prior(halo, "inner_slope", allow=("uniform", "normal", "fixed"))
-            _check_range(path, "halo.inner_slope", gamma, 0.0, 2.5, "an inner slope")
+            # gamma < 2: the concentration-mass relations define c through r_-2,
+            # the radius of slope -2, which is (2 - gamma) r_s for a gNFW.
+            _check_range(path, "halo.inner_slope", gamma, 0.0, 1.9, "an inner slope")
             halo.finish(["profile", "log10_m200c", "log10_c200c", "inner_slope"])
         else:
             halo.finish(["profile", "log10_m200c", "log10_c200c"])
@@ -223,6 +269,13 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
             nu = _prior(response, "response_nu")
             _check_range(path, "response.response_nu", nu, -0.3, 3.0, "a response index nu")
             response.finish(["prescription", "response_nu"])
+        elif prescription == "orbit_averaged":
+            allow = ("uniform", "normal", "fixed")
+            orbit_a = _prior(response, "orbit_scale", allow=allow)
+            _check_range(path, "response.orbit_scale", orbit_a, 0.1, 5.0, "an orbit scale A")
+            orbit_w = _prior(response, "orbit_exponent", allow=allow)
+            _check_range(path, "response.orbit_exponent", orbit_w, 0.2, 1.5, "an orbit exponent w")
+            response.finish(["prescription", "orbit_scale", "orbit_exponent"])
         else:
             response.finish(["prescription"])
     else:
@@ -259,6 +312,8 @@ def parse_model(text: str, path: str = "<string>") -> ModelSpec:
         inner_slope=gamma,
         prescription=prescription,
         response_nu=nu,
+        orbit_scale=orbit_a,
+        orbit_exponent=orbit_w,
         slope=slope,
         theta_e_arcsec=theta_e,
         kinematics=kinematics,

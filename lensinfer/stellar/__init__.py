@@ -11,9 +11,10 @@ reference IMF (Chabrier 2003 unless stated); the true stellar mass is
 - the stellar-evolution ingredients: main-sequence lifetimes and turn-off
   masses, a mass–luminosity relation, initial–final (remnant) mass relations;
 - :func:`imf_mass_factor`, the mass ratio at equal light of two old
-  populations, and :func:`stellar_budget`, the mass and light behind it;
-- the prior on :math:`\log_{10}\alpha_{\rm IMF}` (:func:`mass_to_light_prior`)
-  and a radial M/L gradient (:func:`mass_to_light_gradient`).
+  populations, and :func:`stellar_budget`, the mass and light behind it.
+
+The prior on :math:`\log_{10}\alpha_{\rm IMF}` is declared in the model files
+and built by :mod:`lensinfer.model`.
 
 Everything is pure JAX in float64, differentiable and ``vmap``-able; units are
 Msun, Gyr, Lsun and kpc.  No numpyro here: the model layer wraps the priors.
@@ -25,7 +26,6 @@ from lensinfer.stellar.evolution import (
     turnoff_mass,
     turnoff_mass_rate,
 )
-from lensinfer.stellar.gradient import mass_to_light_gradient
 from lensinfer.stellar.imf import (
     NAMED_IMFS,
     BrokenPowerLawIMF,
@@ -34,7 +34,6 @@ from lensinfer.stellar.imf import (
     get_imf,
 )
 from lensinfer.stellar.mass_factor import StellarBudget, imf_mass_factor, stellar_budget
-from lensinfer.stellar.prior import MassToLightPrior, ScalarPrior, mass_to_light_prior
 from lensinfer.stellar.remnants import (
     NAMED_REMNANT_RELATIONS,
     RemnantMassRelation,
@@ -46,18 +45,14 @@ __all__ = [
     "NAMED_REMNANT_RELATIONS",
     "BrokenPowerLawIMF",
     "LognormalPowerLawIMF",
-    "MassToLightPrior",
     "PowerLawIMF",
     "RemnantMassRelation",
-    "ScalarPrior",
     "StellarBudget",
     "get_imf",
     "get_remnant_relation",
     "imf_mass_factor",
     "main_sequence_lifetime_gyr",
     "main_sequence_luminosity",
-    "mass_to_light_gradient",
-    "mass_to_light_prior",
     "stellar_budget",
     "turnoff_mass",
     "turnoff_mass_rate",

@@ -304,7 +304,5 @@ def imf_mass_factor(
     target = stellar_budget(imf, age_gyr, **kwargs)
     ref = stellar_budget(reference, age_gyr, **kwargs)
     if include_remnants:
-        m_target, m_ref = target.stellar_mass, ref.stellar_mass
-    else:
-        m_target, m_ref = target.living_mass, ref.living_mass
-    return (m_target / target.light) / (m_ref / ref.light)
+        return target.mass_to_light / ref.mass_to_light
+    return (target.living_mass / target.light) / (ref.living_mass / ref.light)

@@ -23,6 +23,7 @@ import numpy as np
 
 from lensinfer.contraction import contract_halo
 from lensinfer.cosmology import Cosmology
+from lensinfer.halo import convert_mass
 from lensinfer.profiles import NFW, Sersic
 
 COSMO = Cosmology.default()
@@ -45,9 +46,10 @@ COLUMN = {name: i for i, name in enumerate(PARAMS)}
 #: The prescriptions (all of ``lensinfer.contraction.PRESCRIPTIONS``).
 PRESCRIPTIONS = ("none", "blumenthal86", "gnedin04", "gnedin11", "orbit_averaged", "power")
 
-#: (A, w) of the named orbit-averaged radius rbar = A r200 (r/r200)^w: Gnedin et
-#: al. (2004, ApJ 616, 16, section 3) A = 0.85, w = 0.8; Gnedin et al. (2011,
-#: arXiv:1108.5736) A = 1.6, w = 0.8 (both from memory).
+#: (A, w) of the named orbit-averaged radius rbar = A r_vir (r/r_vir)^w (r_vir:
+#: the virial radius, Bryan & Norman 1998): Gnedin et al. (2004, ApJ 616, 16,
+#: section 3) A = 0.85, w = 0.8; Gnedin et al. (2011, arXiv:1108.5736) A = 1.6,
+#: w = 0.8 (both from memory).
 ORBIT = {"gnedin04": (0.85, 0.8), "gnedin11": (1.6, 0.8)}
 
 #: The response grid as ``contract_halo``'s docstring states it (final radii
@@ -62,6 +64,10 @@ QUANTITIES = ("enclosed_mass", "projected_mass", "density", "surface_density")
 
 #: Rows per call; :func:`evaluate` pads, so each prescription compiles once.
 BATCH = 32
+
+#: What normalises the orbit-averaged radius: "vir" (contract_halo's default,
+#: r_vir solved from z and the cosmology) or "200c" (``r_orbit=r200c`` passed).
+ORBIT_RADII = ("vir", "200c")
 
 
 def row(log10_m200c, c200c, z, log10_mstar, r_eff, n, nu=1.0, orbit_scale=1.0, orbit_exponent=1.0):
@@ -84,11 +90,13 @@ def orbit_parameters(prescription, p):
     return a, w, nu
 
 
-def build(p, prescription):
+def build(p, prescription, orbit_radius="vir"):
     """(contracted dark matter, NFW halo, Sérsic galaxy) for one parameter row p.
 
     The halo comes from M200c, c200c and z, and ``contract_halo`` solves r200c
-    itself from z and the cosmology (the path a model uses).  The galaxy uses
+    (and, for ``orbit_radius="vir"``, the virial radius that normalises the
+    orbit-averaged radius) itself from z and the cosmology.  With
+    ``orbit_radius="200c"`` it is given ``r_orbit=r200c``.  The galaxy uses
     the default (tabulated) deprojection, as a model does.
     """
     lm, c, z, lms, r_eff, n = (p[i] for i in range(6))
@@ -100,6 +108,8 @@ def build(p, prescription):
         kwargs = dict(response_index=nu)
     elif prescription == "orbit_averaged":
         kwargs = dict(orbit_scale=a, orbit_exponent=w)
+    if orbit_radius == "200c":
+        kwargs["r_orbit"] = r200c(p)
     dm = contract_halo(halo, galaxy, prescription, z=z, cosmology=COSMO, **kwargs)
     return dm, halo, galaxy
 
@@ -111,7 +121,19 @@ def r200c(p):
     return (3.0 * m200 / (4.0 * jnp.pi * 200.0 * rho_c)) ** (1.0 / 3.0)
 
 
-def log_quantities(p, prescription, with_extras=True):
+def virial_radius(p):
+    """r_vir (kpc) of the row's NFW halo (Bryan & Norman 1998 overdensity).
+
+    From ``lensinfer.halo.convert_mass`` (its own Newton solve in the
+    concentration, not the contraction module's): r_vir = c_vir r_s with
+    r_s = r200c / c200c.  Checked against scipy in test_reference_solver.py.
+    """
+    lm, c, z = p[COLUMN["log10_m200c"]], p[COLUMN["c200c"]], p[COLUMN["z"]]
+    _, c_vir = convert_mass(10.0**lm, c, z, from_="200c", to="vir", cosmology=COSMO)
+    return c_vir * r200c(p) / c
+
+
+def log_quantities(p, prescription, with_extras=True, orbit_radius="vir"):
     """ln |M(<r)|, |M_2D(<R)|, |rho(r)|, |Sigma(R)| at r = R = RADII_FACTORS R_eff, (4, 10).
 
     With ``with_extras`` also a dict: the sign of the density; the halo's rho_s,
@@ -120,7 +142,7 @@ def log_quantities(p, prescription, with_extras=True):
     "none"); and the masses at the shell that must not move (see
     ``test_prescriptions.py``).
     """
-    dm, halo, galaxy = build(p, prescription)
+    dm, halo, galaxy = build(p, prescription, orbit_radius)
     radii = p[COLUMN["r_eff"]] * jnp.asarray(RADII_FACTORS)
     # ln |q|: a negative density (crossed shells) stays finite here and is
     # tested on its own (test_prescriptions.py).
@@ -130,13 +152,16 @@ def log_quantities(p, prescription, with_extras=True):
         return logq
     a, w, _ = orbit_parameters(prescription, p)
     r200 = r200c(p)
-    # The shell that stays: rbar(r*) = r200c, i.e. r* = r200c A^(-1/w) (r200c when rbar = r).
-    r_star = r200 if a is None else r200 * a ** (-1.0 / w)
+    r_orb = virial_radius(p) if orbit_radius == "vir" else r200
+    # The shell that stays: rbar(r*) = A r_orb (r*/r_orb)^w = r200c, i.e.
+    # r* = r_orb (r200c / (A r_orb))^(1/w) (r200c when rbar = r).
+    r_star = r200 if a is None else r_orb * (r200 / (a * r_orb)) ** (1.0 / w)
     extras = dict(
         density_sign=jnp.sign(values[2]),
         rho_s=halo.rho_s,
         r_s=halo.r_s,
         r200c=r200,
+        r_orbit=r_orb,
         m200c=halo.enclosed_mass(r200),
         galaxy_mass_r200c=galaxy.enclosed_mass(r200),
         r_star=r_star,
@@ -148,7 +173,7 @@ def log_quantities(p, prescription, with_extras=True):
         extras.update(log_r0=0.0, log_mass=zeros, remaining=dm.factor, galaxy_mass=zeros)
         return logq, extras
     r_f = jnp.exp(dm.log_r0 + GRID_H * jnp.arange(GRID_N))
-    rbar = r_f if a is None else a * r200 * (r_f / r200) ** w
+    rbar = r_f if a is None else a * r_orb * (r_f / r_orb) ** w
     extras.update(
         log_r0=dm.log_r0,
         log_mass=dm.log_mass,
@@ -158,7 +183,7 @@ def log_quantities(p, prescription, with_extras=True):
     return logq, extras
 
 
-def make_batch(prescription, with_extras=True, with_derivatives=True):
+def make_batch(prescription, with_extras=True, with_derivatives=True, orbit_radius="vir"):
     """A fresh jit(g)(s, rows, directions) -> (logq, extras, dlogq), row by row.
 
     ``logq`` and ``extras`` are :func:`log_quantities` at rows + s[:, None] *
@@ -169,13 +194,14 @@ def make_batch(prescription, with_extras=True, with_derivatives=True):
     tests compare dlogq with finite differences of logq in s.  Fresh (uncached)
     so that a test that patches the package's grid traces it under the patch.
     Without extras it returns (logq, dlogq); without derivatives, logq (and extras).
+    ``orbit_radius`` is passed to :func:`build`.
     """
 
     def one(args):
         p, s, d = args
 
         def at(t):
-            return log_quantities(p + t * d, prescription, with_extras)
+            return log_quantities(p + t * d, prescription, with_extras, orbit_radius)
 
         if not with_derivatives:
             return at(s)
@@ -190,10 +216,15 @@ def make_batch(prescription, with_extras=True, with_derivatives=True):
     return jax.jit(g)
 
 
-@functools.cache
-def batch(prescription):
+def batch(prescription, orbit_radius="vir"):
     """The shared (cached) :func:`make_batch` of a prescription."""
-    return make_batch(prescription)
+    # One cache key per (prescription, orbit_radius), however they are passed.
+    return _batch(prescription, orbit_radius)
+
+
+@functools.cache
+def _batch(prescription, orbit_radius):
+    return make_batch(prescription, orbit_radius=orbit_radius)
 
 
 def pad(rows):
@@ -205,14 +236,14 @@ def pad(rows):
     return np.concatenate([rows, np.repeat(rows[:1], BATCH - n, axis=0)]), n
 
 
-def run(prescription, rows, fn=None):
+def run(prescription, rows, fn=None, orbit_radius="vir"):
     """(|quantities|, extras) for each row: quantities (n, 4, 10) in Msun, kpc (not logs)."""
     padded, n = pad(rows)
-    fn = batch(prescription) if fn is None else fn
+    fn = batch(prescription, orbit_radius) if fn is None else fn
     logq, extras, _ = fn(np.zeros(BATCH), padded, np.zeros_like(padded))
     return np.exp(np.asarray(logq))[:n], {k: np.asarray(v)[:n] for k, v in extras.items()}
 
 
-def evaluate(prescription, rows):
+def evaluate(prescription, rows, orbit_radius="vir"):
     """The quantities only, (n, 4, 10)."""
-    return run(prescription, rows)[0]
+    return run(prescription, rows, orbit_radius=orbit_radius)[0]

@@ -16,9 +16,16 @@ For each final radius r_f, the initial radius r_i is the root (found with
 
 i.e. r_f / r_i = [M_i / M_f]^nu: the adiabatic invariant r M(r) of Blumenthal
 et al. (1986, ApJ 301, 27) for nu = 1 and rbar = r; the orbit-averaged radius
-rbar = A r200 (r/r200)^w of Gnedin et al. (2004, ApJ 616, 16); the continuous
-response index nu of Dutton et al. (2007, ApJ 654, 27) (all from memory).  Shells
-do not cross, so M_DM(<r_f) = (1 - f) M_i(<r_i), with f = M_gal(<r200c) / M200c.
+rbar = A r_vir (r/r_vir)^w of Gnedin et al. (2004, ApJ 616, 16), normalised by
+the halo's virial radius; the continuous response index nu of Dutton et al.
+(2007, ApJ 654, 27) (all from memory).  Shells do not cross, so
+M_DM(<r_f) = (1 - f) M_i(<r_i), with f = M_gal(<r200c) / M200c.
+
+The virial radius is solved here too, without the package: ``brentq`` on
+M_NFW(<r) = (4 pi / 3) Delta_vir rho_c(z) r^3 with the overdensity of Bryan &
+Norman (1998, ApJ 495, 80, eq. 6) for a flat universe,
+Delta_vir = 18 pi^2 + 82 x - 39 x^2, x = Omega_m(z) - 1, relative to the
+critical density, and Omega_m(z) and rho_c(z) from astropy's Planck18.
 
 The logarithmic slope s = dln M_DM / dln r_f follows from the implicit-function
 theorem on the same equation (analytic derivatives of the NFW mass and of the
@@ -92,6 +99,16 @@ def _quad(fn, a, b):
     return value
 
 
+def bryan_norman_overdensity(z):
+    """Delta_vir(z) relative to rho_c(z): Bryan & Norman (1998, ApJ 495, 80), eq. 6.
+
+    Delta_vir = 18 pi^2 + 82 x - 39 x^2 with x = Omega_m(z) - 1 (flat universe
+    with a cosmological constant), Omega_m(z) from astropy's Planck18.
+    """
+    x = float(Planck18.Om(z)) - 1.0
+    return 18.0 * math.pi**2 + 82.0 * x - 39.0 * x**2
+
+
 class ReferenceResponse:
     """The dark matter of an NFW halo after a Sérsic galaxy formed inside it.
 
@@ -102,17 +119,34 @@ class ReferenceResponse:
     log10_mstar, r_eff, n : float
         The Sérsic galaxy (total mass in Msun, R_eff in kpc, index).
     a, w : float or None
-        Orbit-averaged radius rbar = a r200 (r/r200)^w; None for rbar = r.
+        Orbit-averaged radius rbar = a r_orb (r/r_orb)^w; None for rbar = r.
     nu : float
         Response index (1: adiabatic invariant; 0: no response).
+    orbit_radius : {"vir", "200c"}
+        r_orb: the halo's virial radius (Bryan & Norman 1998; the default, as
+        in Gnedin et al. 2004) or r200c (the package's ``r_orbit=r200c``).
     """
 
-    def __init__(self, log10_m200c, c200c, z, log10_mstar, r_eff, n, a=None, w=None, nu=1.0):
+    def __init__(
+        self,
+        log10_m200c,
+        c200c,
+        z,
+        log10_mstar,
+        r_eff,
+        n,
+        a=None,
+        w=None,
+        nu=1.0,
+        orbit_radius="vir",
+    ):
         self.m200 = 10.0**log10_m200c
         rho_c = Planck18.critical_density(z).to_value(u.Msun / u.kpc**3)
         self.r200 = (3.0 * self.m200 / (4.0 * math.pi * 200.0 * rho_c)) ** (1.0 / 3.0)
         self.r_s = self.r200 / c200c
         self.m_norm = self.m200 / nfw_m(c200c)
+        self.r_vir = self._virial_radius(bryan_norman_overdensity(z) * rho_c)
+        self.r_orbit = {"vir": self.r_vir, "200c": self.r200}[orbit_radius]
         self.a, self.w, self.nu = a, w, nu
         self._galaxy_args = (10.0**log10_mstar, float(r_eff), float(n))
         self.galaxy = functools.lru_cache(maxsize=None)(self._galaxy)
@@ -127,10 +161,21 @@ class ReferenceResponse:
         mass, log_rho = (float(v) for v in _galaxy_mass_and_log_density(*self._galaxy_args, r))
         return mass, 4.0 * math.pi * r**3 * math.exp(log_rho) / mass
 
+    def _virial_radius(self, rho_vir):
+        """r where M_NFW(<r) = (4 pi / 3) rho_vir r^3 (mean density falls with r:
+        one root, bracketed by r200c / 10 and 10 r200c for Delta_vir < 200)."""
+
+        def excess(log_r):
+            r = math.exp(log_r)
+            return math.log(self.halo_mass(r) / (4.0 / 3.0 * math.pi * rho_vir * r**3))
+
+        lo, hi = math.log(0.1 * self.r200), math.log(10.0 * self.r200)
+        return math.exp(brentq(excess, lo, hi, xtol=1e-15, rtol=1e-15))
+
     def orbit(self, r):
         if self.a is None:
             return r
-        return self.a * self.r200 * (r / self.r200) ** self.w
+        return self.a * self.r_orbit * (r / self.r_orbit) ** self.w
 
     # -- the response -------------------------------------------------------
     def _residual(self, x, log_rf, m_gal):

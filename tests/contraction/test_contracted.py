@@ -59,6 +59,21 @@ def test_r200c_or_redshift_and_cosmology_needed(halo_and_galaxy, kwargs):
         contract_halo(*halo_and_galaxy, "blumenthal86", **kwargs)
 
 
+@pytest.mark.parametrize(
+    "prescription, kwargs",
+    [
+        ("gnedin04", {}),
+        ("gnedin11", dict(z=0.4)),
+        ("orbit_averaged", dict(cosmology=_model.COSMO, orbit_scale=1.0, orbit_exponent=0.8)),
+    ],
+)
+def test_orbit_radius_or_redshift_and_cosmology_needed(halo_and_galaxy, prescription, kwargs):
+    # The orbit-averaged radius is normalised by r_vir, which needs z and the
+    # cosmology (or an explicit r_orbit), even when r200c is given.
+    with pytest.raises(ValueError, match=r"needs r_orbit \(the halo's virial radius, kpc\)"):
+        contract_halo(*halo_and_galaxy, prescription, r200c=500.0, **kwargs)
+
+
 # ---------------------------------------------------------------------------
 # What contract_halo returns, and the defaults it documents.
 # ---------------------------------------------------------------------------
@@ -109,20 +124,41 @@ def test_default_galaxy_fraction():
         np.testing.assert_allclose(x["remaining"], 1.0 - f, rtol=1e-13)
 
 
-def test_explicit_galaxy_fraction_and_r200c_reproduce_the_defaults():
+def test_explicit_galaxy_fraction_r200c_and_r_orbit_reproduce_the_defaults():
+    # Explicit f, r200c and r_orbit = r_vir (from lensinfer.halo.convert_mass, a
+    # separate solve) against the defaults (f, r200c and r_vir solved inside).
     def both(p):
         halo, galaxy = _nfw_and_point_mass(p)
         default = contract_halo(halo, galaxy, "gnedin11", z=p[2], cosmology=_model.COSMO)
         r200 = _model.r200c(p)
         f = galaxy.mass / 10.0 ** p[0]
-        explicit = contract_halo(halo, galaxy, "gnedin11", f, r200c=r200)
+        r_vir = _model.virial_radius(p)
+        explicit = contract_halo(halo, galaxy, "gnedin11", f, r200c=r200, r_orbit=r_vir)
         radii = p[_model.COLUMN["r_eff"]] * jnp.asarray(_model.RADII_FACTORS)
         return default.enclosed_mass(radii), explicit.enclosed_mass(radii)
 
     a, b = jax.jit(both)(jnp.asarray(ELLIPTICAL))
-    # The solved r200c equals the closed form to ~1e-14 (test above), so f and
-    # the grid agree to that, and the masses to ~1e-13.
+    # The solved r200c equals the closed form to ~1e-14 (test above), and both
+    # r_vir solves agree with scipy to ~1e-14 (test_reference_solver.py), so f,
+    # the grid and rbar agree to that, and the masses to ~1e-13.
     np.testing.assert_allclose(np.asarray(a), np.asarray(b), rtol=1e-11)
+
+
+@pytest.mark.parametrize("prescription", ["blumenthal86", "power"])
+def test_r_orbit_is_ignored_without_orbit_averaging(prescription):
+    # rbar = r for these prescriptions (contract_halo's table): r_orbit is
+    # accepted and has no effect, and z and the cosmology are not needed.
+    kwargs = dict(response_index=0.7) if prescription == "power" else {}
+
+    def both(p):
+        halo, galaxy = _nfw_and_point_mass(p)
+        r200 = _model.r200c(p)
+        plain = contract_halo(halo, galaxy, prescription, r200c=r200, **kwargs)
+        given = contract_halo(halo, galaxy, prescription, r200c=r200, r_orbit=123.0, **kwargs)
+        return plain.log_mass, given.log_mass
+
+    a, b = jax.jit(both)(jnp.asarray(ELLIPTICAL))
+    np.testing.assert_array_equal(np.asarray(a), np.asarray(b))
 
 
 # ---------------------------------------------------------------------------

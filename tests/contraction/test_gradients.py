@@ -13,8 +13,11 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 import pytest
-from jax.test_util import check_jvp, check_vjp
+from jax.test_util import check_grads, check_jvp, check_vjp
 from scipy.optimize import brentq
+
+from lensinfer.contraction import contract_halo
+from lensinfer.profiles import NFW, Sersic
 
 from . import _model
 from ._reference import nfw_m
@@ -165,6 +168,46 @@ def test_reverse_gradients_match_finite_differences(prescription):
     check_vjp(f, f_vjp, (s0,), atol=TOL, rtol=TOL, eps=EPS)
 
 
+def _orbit_averaged_log_masses(a, w, log10_m200c, z):
+    """ln M_DM(<r) and ln M_2D,DM(<R) at 0.1, 1 and 10 R_eff of a massive lens.
+
+    "orbit_averaged" with traced A and w, and the default r_orbit (r_vir solved
+    from z and the cosmology, so that its implicit derivative with respect to
+    the halo mass and the redshift is in the graph too).  Stars of 2e11 Msun,
+    R_eff = 6 kpc, n = 4 in a c200c = 7 halo.
+    """
+    halo = NFW.from_m200c(10.0**log10_m200c, 7.0, z, _model.COSMO)
+    stars = Sersic(2.0e11, 6.0, 4.0)
+    dm = contract_halo(
+        halo, stars, "orbit_averaged", z=z, cosmology=_model.COSMO, orbit_scale=a, orbit_exponent=w
+    )
+    radii = 6.0 * jnp.array([0.1, 1.0, 10.0])
+    return jnp.log(jnp.concatenate([dm.enclosed_mass(radii), dm.projected_mass(radii)]))
+
+
+def test_check_grads_with_respect_to_orbit_scale_and_exponent():
+    # jax.test_util.check_grads (forward and reverse mode, first order) with
+    # respect to A and w of rbar = A r_vir (r / r_vir)^w (Gnedin et al. 2004,
+    # from memory), a model's sampled response parameters, and log10 M200c and z
+    # (which also move r_vir).  Same step and per-element tolerance as above
+    # (measured: max |AD - FD| / (1 + |FD|) = 2e-8 per element, forward and
+    # reverse); check_grads multiplies atol and rtol by the output size (6), so
+    # divide.
+    f = jax.jit(_orbit_averaged_log_masses)
+    args = (1.2, 0.7, 13.0, 0.4)
+    values = np.asarray(f(*args))
+    assert np.all(np.isfinite(values)), values
+    # A larger A, or a smaller w (r < r_vir here), moves rbar out, where the
+    # galaxy is a smaller share of the mass: weaker contraction, less dark
+    # matter at every radius here (the ordering of the named forms,
+    # test_prescriptions.py).  Central differences, for the signs only.
+    d_a = np.asarray(f(1.2 + EPS, *args[1:])) - np.asarray(f(1.2 - EPS, *args[1:]))
+    d_w = np.asarray(f(1.2, 0.7 + EPS, *args[2:])) - np.asarray(f(1.2, 0.7 - EPS, *args[2:]))
+    assert np.all(d_a < 0.0) and np.all(d_w > 0.0), (d_a, d_w)
+    size = values.size
+    check_grads(f, args, order=1, modes=("fwd", "rev"), atol=TOL / size, rtol=TOL / size, eps=EPS)
+
+
 #: Newton residual bound.  The solver's claim is |F| < 1e-12; recomputing F
 #: here adds ~2e-12 (the package's NFW mass has ~2e-12 relative error near
 #: r = 1e-3 r_s, measured against mpmath, and it enters F directly), so 1e-10.
@@ -185,13 +228,15 @@ def test_newton_residual_on_prior_draws(prescription):
         rho_s, r_s = extras["rho_s"][j], extras["r_s"][j]
         norm = 4.0 * np.pi * rho_s * r_s**3
         f = 1.0 - extras["remaining"][j]
-        r200 = extras["r200c"][j]
+        r_orb = extras["r_orbit"][j]  # r_vir: rbar = A r_vir (r / r_vir)^w
         for k in range(_model.GRID_N):
             log_rf = extras["log_r0"][j] + _model.GRID_H * k
             target = np.log(np.exp(extras["log_mass"][j][k]) / ((1.0 - f) * norm))
             u = brentq(lambda v, t=target: np.log(nfw_m(np.exp(v))) - t, -60.0, 30.0, xtol=1e-15)
             log_ri = u + np.log(r_s)
-            rbar_i = np.exp(log_ri) if a is None else a * r200 * np.exp(w * (log_ri - np.log(r200)))
+            rbar_i = (
+                np.exp(log_ri) if a is None else a * r_orb * np.exp(w * (log_ri - np.log(r_orb)))
+            )
             m_i = norm * nfw_m(rbar_i / r_s)
             resid = log_rf - log_ri + nu * np.log(extras["galaxy_mass"][j][k] / m_i + 1.0 - f)
             worst = max(worst, abs(resid))

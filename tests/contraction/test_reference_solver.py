@@ -8,6 +8,7 @@ comes from outside the package (a closed-form solution, or the scipy solver of
 import functools
 
 import jax
+import jax.numpy as jnp
 import numpy as np
 import pytest
 
@@ -15,7 +16,7 @@ from lensinfer import _spline
 from lensinfer._constants import G_KPC_KMS2_PER_MSUN as G
 from lensinfer.contraction import contract_halo
 from lensinfer.contraction import contracted as contracted_module
-from lensinfer.profiles import PointMass, SingularIsothermal
+from lensinfer.profiles import NFW, PointMass, SingularIsothermal
 
 from . import _model
 from ._reference import NAMED, ReferenceResponse
@@ -134,18 +135,26 @@ SETS = {
     "extended-group": (14.0, 4.0, 0.7, 11.8, 15.0, 6.0),
 }
 
-#: id -> (prescription, extra row columns).  Every prescription; "power" at two
-#: contraction strengths and at moderate and strong expansion (the documented
-#: range is nu >= -0.3), "orbit_averaged" at a user (A, w).
+#: id -> (prescription, extra row columns, orbit normalisation).  Every
+#: prescription; "power" at two contraction strengths and at moderate and strong
+#: expansion (the documented range is nu >= -0.3), "orbit_averaged" at a user
+#: (A, w); the orbit-averaged radius normalised by r_vir (the default, as in
+#: Gnedin et al. 2004) and, for "gnedin04", by r200c (``r_orbit=r200c``: the
+#: package's behaviour before the virial normalisation).
 VARIANTS = {
-    "none": ("none", {}),
-    "blumenthal86": ("blumenthal86", {}),
-    "gnedin04": ("gnedin04", {}),
-    "gnedin11": ("gnedin11", {}),
-    "orbit_averaged-A1.2-w0.7": ("orbit_averaged", dict(orbit_scale=1.2, orbit_exponent=0.7)),
-    "power-nu0.6": ("power", dict(nu=0.6)),
-    "power-nu1.8": ("power", dict(nu=1.8)),
-    "power-nu-0.3": ("power", dict(nu=-0.3)),
+    "none": ("none", {}, "vir"),
+    "blumenthal86": ("blumenthal86", {}, "vir"),
+    "gnedin04": ("gnedin04", {}, "vir"),
+    "gnedin04-r_orbit-r200c": ("gnedin04", {}, "200c"),
+    "gnedin11": ("gnedin11", {}, "vir"),
+    "orbit_averaged-A1.2-w0.7": (
+        "orbit_averaged",
+        dict(orbit_scale=1.2, orbit_exponent=0.7),
+        "vir",
+    ),
+    "power-nu0.6": ("power", dict(nu=0.6), "vir"),
+    "power-nu1.8": ("power", dict(nu=1.8), "vir"),
+    "power-nu-0.3": ("power", dict(nu=-0.3), "vir"),
 }
 
 #: Radii (in R_eff) of the projected comparisons: each costs an adaptive
@@ -154,7 +163,7 @@ PROJECTED_INDEX = [0, 3, 6, 9]
 
 
 def _row(set_id, variant):
-    _, extra = VARIANTS[variant]
+    _, extra, _ = VARIANTS[variant]
     r = _model.row(*SETS[set_id])
     for key, value in extra.items():
         r[_model.COLUMN[key]] = value
@@ -164,19 +173,20 @@ def _row(set_id, variant):
 @functools.cache
 def _package(variant):
     """The package's four quantities, (n_sets, 4, 10), for every parameter set."""
-    prescription, _ = VARIANTS[variant]
-    return _model.evaluate(prescription, np.array([_row(s, variant) for s in SETS]))
+    prescription, _, orbit_radius = VARIANTS[variant]
+    rows = np.array([_row(s, variant) for s in SETS])
+    return _model.evaluate(prescription, rows, orbit_radius)
 
 
 @functools.cache
 def _reference_solver(set_id, variant):
-    prescription, extra = VARIANTS[variant]
+    prescription, extra, orbit_radius = VARIANTS[variant]
     if prescription in NAMED:
         a, w, nu = NAMED[prescription]
     else:
         a, w = extra.get("orbit_scale"), extra.get("orbit_exponent")
         nu = extra.get("nu", 1.0)
-    return ReferenceResponse(*SETS[set_id], a=a, w=w, nu=nu)
+    return ReferenceResponse(*SETS[set_id], a=a, w=w, nu=nu, orbit_radius=orbit_radius)
 
 
 @functools.cache
@@ -214,3 +224,43 @@ def test_against_scipy_solver(variant, quantity):
         worst = max(worst, abs(rel[j]))
         lines.append(f"{set_id}: max |rel err| {abs(rel[j]):.2e} at {factors[j]:.3g} R_eff")
     assert worst < RTOL[quantity], f"{variant} {quantity}:\n" + "\n".join(lines)
+
+
+# ---------------------------------------------------------------------------
+# The virial radius that normalises the orbit-averaged radius.
+# ---------------------------------------------------------------------------
+
+#: The typical massive lens of the virial-normalisation checks (also in
+#: test_prescriptions.py): M200c = 1e13 Msun, c200c = 7, z = 0.4.
+LENS_HALO = (13.0, 7.0, 0.4)
+
+
+def test_virial_radius_against_scipy():
+    # r_vir from M_NFW(<r) = (4 pi / 3) Delta_vir rho_c r^3 with Delta_vir of
+    # Bryan & Norman (1998, eq. 6) written out in _reference.py and astropy's
+    # Omega_m(z) and rho_c(z), solved by brentq to 1e-15 in ln r.  Both package
+    # routes: the contraction's own solve (contracted._virial_radius, the default
+    # r_orbit) and the halo module's convert_mass (used by _model).  Expected
+    # agreement ~1e-14 (Newton converged to ~1e-15 in ln r; the package's
+    # Omega_m(z) and rho_c(z) equal astropy's to ~1e-13 relative, and r_vir
+    # scales as their 1/3 power); 1e-12 leaves a margin.
+    halos = [s[:3] for s in SETS.values()] + [LENS_HALO]
+
+    @jax.jit
+    def package(lm, c, z):
+        halo = NFW.from_m200c(10.0**lm, c, z, _model.COSMO)
+        r200 = _model.r200c(jnp.stack([lm, c, z]))  # the first three row columns
+        return contracted_module._virial_radius(halo, z, _model.COSMO, r200)
+
+    for lm, c, z in halos:
+        ref = ReferenceResponse(lm, c, z, 11.0, 5.0, 4.0)
+        got = float(package(lm, c, z))
+        via_halo = float(_model.virial_radius(_model.row(lm, c, z, 11.0, 5.0, 4.0)))
+        np.testing.assert_allclose(got, ref.r_vir, rtol=1e-12, err_msg=str((lm, c, z)))
+        np.testing.assert_allclose(via_halo, ref.r_vir, rtol=1e-12, err_msg=str((lm, c, z)))
+        # Delta_vir < 200 for any Omega_m(z) < 1 (it tends to 18 pi^2 ~ 178), so
+        # r_vir > r200c; print the ratio (pytest -s) so it can be quoted.
+        print(
+            f"log10 M200c = {lm}, c200c = {c}, z = {z}: r_vir / r200c = {ref.r_vir / ref.r200:.4f}"
+        )
+        assert ref.r_vir > ref.r200

@@ -75,7 +75,10 @@ def lens_galaxy(p, contracted=True, black_hole=True):
     m200c = 10.0 ** p[3]
     nfw = NFW.from_m200c(m200c, p[4], z, cosmo)
     r200c = radius_from_mass(m200c, z, cosmology=cosmo)
-    halo = contract_halo(nfw, stars, "gnedin04", r200c=r200c) if contracted else nfw
+    halo = nfw
+    if contracted:
+        # z and the cosmology: r_vir normalises the orbit-averaged radius.
+        halo = contract_halo(nfw, stars, "gnedin04", r200c=r200c, z=z, cosmology=cosmo)
     mass = stars + halo
     if black_hole:
         mass = mass + PointMass(10.0 ** p[5])

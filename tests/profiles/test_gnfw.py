@@ -117,7 +117,38 @@ def test_from_m200c_with_slope_one_equals_nfw(cosmo):
     assert float(g.inner_slope) == 1.0
 
 
-@pytest.mark.parametrize("gamma", [0.5, 1.5, 2.0])
+@pytest.mark.parametrize("gamma", [0.0, 0.5, 1.0, 1.5, 1.8])
+def test_from_m200c_concentration_is_r200c_over_r_minus2(cosmo, gamma):
+    # Concentration-mass relations define c = r200c / r_-2, with r_-2 where the
+    # logarithmic density slope is -2 (e.g. Duffy et al. 2008, sec. 2; Dutton &
+    # Macciò 2014, sec. 3; common practice).  r_-2 is found here by scipy brentq on
+    # a centred finite difference of ln rho (independent of the closed form
+    # (2 - gamma) r_s used by the package): brentq xtol 1e-14 kpc, and the
+    # difference step 1e-6 in ln r gives a slope error ~1e-12, so 1e-8 relative.
+    from scipy.optimize import brentq
+
+    m200c, c200c, z = 2e12, 8.0, 0.3
+    rho_c = Planck18.critical_density(z).to_value(u.Msun / u.kpc**3)
+    r200 = (3.0 * m200c / (4.0 * math.pi * 200.0 * rho_c)) ** (1.0 / 3.0)
+    g = GeneralizedNFW.from_m200c(m200c * u.Msun, c200c, gamma, z, cosmo)
+    rho_s, r_s = float(g.rho_s), float(g.r_s)
+
+    def slope(lnr, e=1e-6):
+        lo = math.log(ref.gnfw_density(math.exp(lnr - e), rho_s, r_s, gamma))
+        hi = math.log(ref.gnfw_density(math.exp(lnr + e), rho_s, r_s, gamma))
+        return (hi - lo) / (2 * e) + 2.0
+
+    r_m2 = math.exp(brentq(slope, math.log(1e-3 * r200), math.log(10 * r200), xtol=1e-14))
+    assert r200 / r_m2 == pytest.approx(c200c, rel=1e-8, abs=0)
+
+
+def test_from_m200c_has_no_r_minus2_for_steep_cusps(cosmo):
+    # For gamma >= 2 the slope is steeper than -2 everywhere: no concentration.
+    g = GeneralizedNFW.from_m200c(2e12, 8.0, 2.2, 0.3, cosmo)
+    assert math.isnan(float(g.r_s))
+
+
+@pytest.mark.parametrize("gamma", [0.5, 1.5, 1.9])
 def test_from_m200c_encloses_m200c_at_200_rho_crit(cosmo, gamma):
     # r200 from astropy's Planck18 rho_c(z); M(<r200) by scipy quad of the
     # density (independent of lensinfer's quadrature): 1e-8 documented.
@@ -125,7 +156,7 @@ def test_from_m200c_encloses_m200c_at_200_rho_crit(cosmo, gamma):
     rho_c = Planck18.critical_density(z).to_value(u.Msun / u.kpc**3)
     r200 = (3.0 * m200c / (4.0 * math.pi * 200.0 * rho_c)) ** (1.0 / 3.0)
     g = GeneralizedNFW.from_m200c(m200c * u.Msun, c200c, gamma, z, cosmo)
-    assert float(g.r_s) == pytest.approx(r200 / c200c, rel=1e-12, abs=0)
+    assert float(g.r_s) == pytest.approx(r200 / ((2.0 - gamma) * c200c), rel=1e-12, abs=0)
     m_enc = ref.volume_mass(
         lambda r: ref.gnfw_density(r, float(g.rho_s), float(g.r_s), gamma), r200
     )

@@ -163,16 +163,38 @@ def test_decomposition_spec_parses(model_text):
 def test_relation_spec_parses(relation_model_text):
     spec = parse_model(relation_model_text, PATH)
     assert spec.imf_factor == PriorSpec("imf", name="salpeter55")
-    assert spec.log10_m200c == PriorSpec("relation", low=11.5, high=15.0, name="moster13")
-    assert spec.log10_c200c == PriorSpec("relation", name="dutton14")
+    # The halo-mass prior defaults to the halo mass function, the concentration
+    # scatter to all haloes.
+    assert spec.log10_m200c == PriorSpec(
+        "relation", low=11.5, high=15.0, name="moster13", abundance="tinker08"
+    )
+    assert spec.log10_c200c == PriorSpec("relation", name="dutton14", population="all")
     assert spec.log10_mstar_ref is None  # tied to the halo by the relation
     assert spec.summary == ""
+
+
+def test_halo_abundance_and_population_choices(relation_model_text):
+    text = mutated(
+        relation_model_text,
+        (RELATION, 'log10_m200c = { relation = "moster13", abundance = "uniform_in_log" }'),
+    )
+    assert parse_model(text, PATH).log10_m200c.abundance == "uniform_in_log"
+    text = mutated(
+        relation_model_text,
+        (RELATION, 'log10_m200c = { relation = "moster13", abundance = "flat" }'),
+    )
+    with pytest.raises(SpecError) as err:
+        parse_model(text, PATH)
+    assert "halo.log10_m200c.abundance" in str(err.value)
+    assert "'tinker08'" in str(err.value) and "'uniform_in_log'" in str(err.value)
 
 
 def test_relation_without_range_gets_the_default_range(relation_model_text):
     text = mutated(relation_model_text, (RELATION, 'log10_m200c = { relation = "behroozi13" }'))
     spec = parse_model(text, PATH)
-    assert spec.log10_m200c == PriorSpec("relation", low=11.5, high=15.0, name="behroozi13")
+    assert spec.log10_m200c == PriorSpec(
+        "relation", low=11.5, high=15.0, name="behroozi13", abundance="tinker08"
+    )
 
 
 def test_explicit_halo_prior_without_mstar_prior_gets_the_default(model_text):
@@ -244,7 +266,7 @@ BAD = {
         [(PRESCRIPTION, 'prescription = "adiabatic"')],
         "response.prescription",
         "adiabatic",
-        "one of 'none', 'blumenthal86', 'gnedin04', 'gnedin11', 'power'",
+        "one of 'none', 'blumenthal86', 'gnedin04', 'gnedin11', 'orbit_averaged', 'power'",
     ),
     "prescription-not-a-string": (
         "model",
@@ -492,7 +514,8 @@ BAD = {
         [(HALO_PROFILE, 'profile = "gnfw"'), (C200, C200 + "\ninner_slope = 3.0")],
         "halo.inner_slope",
         3.0,
-        "an inner slope between 0.0 and 2.5",
+        # gamma < 2: a gNFW with a steeper cusp has no r_-2, so no concentration.
+        "an inner slope between 0.0 and 1.9",
     ),
     "slope-out-of-range": (
         "total",
@@ -816,3 +839,25 @@ def test_toml_syntax_error_in_a_file_names_its_path(tmp_path):
         read_model(path)
     assert info.value.path == str(path)
     assert str(path) in str(info.value)
+
+
+def test_model_files_quote_the_salpeter_factor_the_code_computes():
+    # The built-in model files state Salpeter's mass factor relative to Chabrier
+    # in a comment; it must be the number lensinfer.stellar.imf_mass_factor gives
+    # (0.224 dex at 10 Gyr), to the three decimals quoted.
+    import math
+    import re
+
+    from lensinfer.spec import builtin_model_names, builtin_model_path
+    from lensinfer.stellar import imf_mass_factor
+
+    computed = math.log10(float(imf_mass_factor("salpeter55", age_gyr=10.0)))
+    quoted = []
+    for name in builtin_model_names():
+        with open(builtin_model_path(name)) as fh:
+            text = fh.read()
+        quoted += [float(v) for v in re.findall(r"Salpeter is \+([0-9.]+) dex", text)]
+        assert "0.25 dex" not in text, name
+    assert quoted, "no model file quotes the factor"
+    for q in quoted:
+        assert q == pytest.approx(computed, abs=5e-4)
