@@ -73,6 +73,13 @@ def _cosmology_parameters(cosmology, sigma8, ns) -> tuple:
         raise ValueError(
             f"the halo mass function needs a baryon density; cosmology {name!r} has Ob0={ob0!r}"
         )
+    tcmb0 = float(cosmology.Tcmb0.value)
+    if not tcmb0 > 0:
+        raise ValueError(
+            f"the halo mass function needs the CMB temperature for its power spectrum "
+            f"(Eisenstein & Hu 1998); cosmology {name!r} has Tcmb0={tcmb0!r} K: give it "
+            "Tcmb0=2.7255 (or use a realisation such as Planck18)"
+        )
     flat = bool(abs(cosmology.Ok0) < 1e-12)
     return (
         float(cosmology.H0.value),

@@ -181,8 +181,13 @@ class TabulatedLogDensity:
         cdf = jnp.asarray(self._cdf)
         k = jnp.clip(jnp.searchsorted(cdf, u, side="right") - 1, 0, self._x.size - 2)
         y, b = jnp.asarray(self._y)[k], jnp.asarray(self._b)[k]
-        r = (u - cdf[k]) * jnp.exp(-y)  # integral of exp(b s) over [0, t] must equal r
-        t = r * _log1p_ratio(b * r)
+        # The integral of exp(b s) over [0, t] must equal r.  Rounding can push
+        # b r just below -1 (steep falling segments, u next to a CDF knot) or
+        # make exp(-y) overflow: keep b r above -1 and t inside the segment.
+        r = jnp.minimum((u - cdf[k]) * jnp.exp(-jnp.maximum(y, -700.0)), 1e300)
+        br = jnp.maximum(b * r, -1.0 + 1e-15)
+        t = r * _log1p_ratio(br)
+        t = jnp.where(t > self._h, self._h, jnp.where(t < 0.0, 0.0, t))  # ties keep d/du
         return jnp.clip(jnp.asarray(self._x)[k] + t, self._x[0], self._x[-1])
 
     def distribution(self):
