@@ -31,40 +31,29 @@ def draw_prior(model, key, n_draws: int) -> dict:
     def one(ui):
         p = model.prior_transform(ui)
         d = model.derive(p)
-        return p, d, model.log_likelihood_terms(p, d), model.log_prior(p)
+        return {
+            "params": p,
+            "derived": d,
+            "log_likelihood": model.log_likelihood_terms(p, d),
+            "log_prior": model.log_prior(p),
+        }
 
     run = jax.jit(jax.vmap(one))
-    conv = lambda tree: {k: np.asarray(v) for k, v in tree.items()}  # noqa: E731
-    parts = []
+    kept_parts = []
     kept = 0
     for _ in range(20):
         key, sub = jax.random.split(key)
         u = jax.random.uniform(sub, (n_box, n_par), minval=1e-9, maxval=1 - 1e-9)
-        p, d, ll, lp = run(u)
-        ok = np.isfinite(np.asarray(lp))
-        parts.append((conv(p), conv(d), conv(ll), np.asarray(lp), ok))
+        out = jax.tree.map(np.asarray, run(u))
+        ok = np.isfinite(out["log_prior"])
+        kept_parts.append(jax.tree.map(lambda a, ok=ok: a[ok], out))
         kept += int(ok.sum())
         if kept >= n_draws:
-            break
-    else:
-        raise RuntimeError(
-            f"only {kept} of {20 * n_box} prior draws satisfy the baryon budget; "
-            "the model's priors leave almost no allowed region"
-        )
-
-    def stack(i):
-        if isinstance(parts[0][i], dict):
-            return {
-                k: np.concatenate([q[i][k][q[4]] for q in parts])[:n_draws] for k in parts[0][i]
-            }
-        return np.concatenate([q[i][q[4]] for q in parts])[:n_draws]
-
-    return {
-        "params": stack(0),
-        "derived": stack(1),
-        "log_likelihood": stack(2),
-        "log_prior": stack(3),
-    }
+            return jax.tree.map(lambda *a: np.concatenate(a)[:n_draws], *kept_parts)
+    raise RuntimeError(
+        f"only {kept} of {20 * n_box} prior draws satisfy the baryon budget; "
+        "the model's priors leave almost no allowed region"
+    )
 
 
 def initial_points(draws: dict, n_chains: int) -> dict:

@@ -196,6 +196,10 @@ class SystemModel:
         """True for stars + halo models, whose prior obeys M* <= f_b M200c."""
         return self.spec.mass_model == "decomposition"
 
+    def _log10_mstar(self, params):
+        """log10 M* = log10 alpha_IMF + log10 M*_ref, the galaxy's stellar mass."""
+        return self._value(params, "log10_mstar_ref") + self._value(params, "log10_imf_factor")
+
     def _log10_mstar_max(self, params):
         """log10 of the largest stellar mass the baryon budget allows, f_b M200c."""
         return self._value(params, "log10_m200c") + math.log10(self.baryon_fraction)
@@ -211,10 +215,7 @@ class SystemModel:
         """
         if not self.has_baryon_budget:
             return jnp.asarray(True)
-        log10_mstar = self._value(params, "log10_mstar_ref") + self._value(
-            params, "log10_imf_factor"
-        )
-        return log10_mstar <= self._log10_mstar_max(params)
+        return self._log10_mstar(params) <= self._log10_mstar_max(params)
 
     def log_constraint(self, params):
         """0 where the draw is allowed by the baryon budget, -inf where it is not."""
@@ -229,10 +230,8 @@ class SystemModel:
         obs = self.observation
         r_eff = self._value(params, "r_eff_kpc")
         n = self._value(params, "sersic_index")
-        log10_mstar = self._value(params, "log10_mstar_ref") + self._value(
-            params, "log10_imf_factor"
-        )
-        if self.spec.mass_model != "total_power_law":
+        log10_mstar = self._log10_mstar(params)
+        if self.has_baryon_budget:
             # Outside the baryon budget (excluded by log_constraint) the physics
             # would take log(1 - f_gal) of f_gal > 1; evaluate it at the budget's
             # edge instead, so values and gradients stay finite there (the draw
@@ -452,10 +451,15 @@ def _normal_logpdf(x, mean, sd):
     return -0.5 * ((x - mean) / sd) ** 2 - jnp.log(sd) - 0.5 * math.log(2.0 * math.pi)
 
 
-def _cosmology_for(observation: Observation) -> Cosmology:
+def _astropy_cosmology(observation: Observation):
+    """The astropy realisation the observation names (e.g. Planck18)."""
     from astropy.cosmology import realizations
 
-    return Cosmology.from_astropy(getattr(realizations, observation.cosmology))
+    return getattr(realizations, observation.cosmology)
+
+
+def _cosmology_for(observation: Observation) -> Cosmology:
+    return Cosmology.from_astropy(_astropy_cosmology(observation))
 
 
 def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
@@ -485,7 +489,8 @@ def build_model(spec: ModelSpec, observation: Observation) -> SystemModel:
     if spec.mass_model == "decomposition":
         m = spec.log10_m200c
         if m.kind == "relation":
-            add_halo_mass_prior(add, m, observation, z_l)
+            prior, describe = halo_mass_prior(m, observation)
+            add("log10_m200c", lambda v, prior=prior: prior, describe)
             relation = m.name
             # The relations predict Chabrier-scale (reference-IMF) masses; an SED
             # mass quoted under another IMF is that mass times the IMF mass factor.
@@ -653,8 +658,8 @@ def _log10_chabrier_to_reference(reference_imf: str) -> float:
     )
 
 
-def add_halo_mass_prior(add, m: PriorSpec, observation: Observation, z_l: float) -> None:
-    """The prior on log10 M200c beside a stellar-to-halo relation.
+def halo_mass_prior(m: PriorSpec, observation: Observation):
+    """The prior on log10 M200c beside a stellar-to-halo relation, and its description.
 
     ``abundance = "tinker08"`` (default): proportional to the halo mass
     function dn/dlog M200c at the lens redshift (Tinker et al. 2008; see
@@ -665,18 +670,16 @@ def add_halo_mass_prior(add, m: PriorSpec, observation: Observation, z_l: float)
     """
     if (m.abundance or "tinker08") == "uniform_in_log":
         prior = Uniform(m.low, m.high)
-        add("log10_m200c", lambda v, prior=prior: prior, prior.describe() + " (uniform in log)")
-        return
-    from astropy.cosmology import realizations
-
+        return prior, prior.describe() + " (uniform in log)"
     from lensinfer.halo.abundance import log_mass_function_table
 
+    z_l = observation.z_lens
     grid, logdn = log_mass_function_table(
-        z_l, m.low, m.high, getattr(realizations, observation.cosmology), model=m.abundance
+        z_l, m.low, m.high, _astropy_cosmology(observation), model=m.abundance
     )
     prior = TabulatedLogDensity(
         grid,
         logdn,
         label=f"halo mass function {m.abundance!r} (Tinker et al. 2008) at z = {z_l:g}",
     )
-    add("log10_m200c", lambda v, prior=prior: prior, prior.describe())
+    return prior, prior.describe()
