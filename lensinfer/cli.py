@@ -399,6 +399,11 @@ def _cmd_compare(args) -> int:
             f"{r['model']:18s} {r['ln_z']:8.2f} +- {r['ln_z_err']:4.2f} {delta:>15s}"
             f" {r['probability']:9.3f}  {r['kass_raftery']}"
         )
+    from lensinfer.comparison import comparability_note
+
+    not_comparable = comparability_note(specs)
+    if not_comparable:
+        print("not comparable: " + not_comparable)
     c = result.get("continuous")
     if c:
         print(

@@ -160,7 +160,7 @@ def test_models_lists_every_builtin_with_its_summary(capsys):
     status, out, err = run(capsys, "models")
     assert status == 0 and err == ""
     lines = out.splitlines()
-    assert len(lines) == len(builtin_model_names()) == 6
+    assert len(lines) == len(builtin_model_names()) == 7
     for line, name in zip(lines, builtin_model_names(), strict=True):
         assert line.split()[0] == name
         assert line.endswith(read_model(name).summary)

@@ -3,7 +3,9 @@
 - :func:`compare` — the whole comparison for one lens (``lensinfer compare``;
   also ``lensinfer.compare``);
 - :func:`nested_evidence`, :func:`importance_evidence` — the two ln Z estimators;
-- :func:`evidence_table`, :func:`kass_raftery`, :func:`effective_nu`.
+- :func:`evidence_table`, :func:`kass_raftery`, :func:`effective_nu`;
+- :func:`comparability_note` — why a total-mass model's ln Z is not a Bayes factor
+  against the decomposition models.
 """
 
 from lensinfer.comparison.evidence import (
@@ -14,12 +16,13 @@ from lensinfer.comparison.evidence import (
     problem_of,
 )
 from lensinfer.comparison.hypotheses import effective_nu, evidence_table, kass_raftery
-from lensinfer.comparison.run import CompareSettings, compare, to_markdown
+from lensinfer.comparison.run import CompareSettings, comparability_note, compare, to_markdown
 
 __all__ = [
     "CompareSettings",
     "Evidence",
     "UnitCubeProblem",
+    "comparability_note",
     "compare",
     "effective_nu",
     "evidence_table",

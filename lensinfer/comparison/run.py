@@ -317,13 +317,28 @@ def compare(
                 read_model("free-response"), obs, settings, outdir, progress, evidence=False
             )
         result["continuous"] = _continuous(obs, free_dt, progress)
-    result["caveats"] = _caveats(result, obs)
+    result["caveats"] = _caveats(result, obs, specs)
     if outdir:
         _write_outputs(result, outdir)
     return result
 
 
-def _caveats(result, obs) -> list[str]:
+def comparability_note(specs) -> str | None:
+    """Why total-mass models' evidences cannot be set against decompositions'."""
+    totals = [s.name for s in specs if s.mass_model == "total_power_law"]
+    if not totals or len(totals) == len(specs):
+        return None
+    return (
+        f"{', '.join(totals)}: a total-mass power law, not a stars-plus-halo decomposition. "
+        "Its slope and Einstein radius have wide uniform priors of their own, with no "
+        "stellar-to-halo relation, halo mass function or concentration prior behind them, "
+        "so its ln Z measures a different prior volume and its Delta ln Z against the "
+        "decomposition models is not a Bayes factor between halo responses; read its row "
+        "as a fit-quality reference only."
+    )
+
+
+def _caveats(result, obs, specs=()) -> list[str]:
     notes = [
         "Evidences depend on the priors: a wider prior on a parameter the data do not constrain "
         "lowers ln Z by about the log of the widening. Delta ln Z compares the hypotheses "
@@ -353,6 +368,9 @@ def _caveats(result, obs) -> list[str]:
             "At least one model's two evidence estimates disagree (see the cross-check); "
             "treat its ln Z as uncertain beyond the quoted error."
         )
+    not_comparable = comparability_note(specs)
+    if not_comparable:
+        notes.append(not_comparable)
     notes.append(LOO_CAVEAT)
     return notes
 

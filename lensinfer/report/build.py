@@ -127,7 +127,8 @@ def assumptions(dt, lens) -> list[str]:
     if lens.spec.prescription not in (None, "power"):
         out.append(
             f"The halo response is fixed to '{lens.spec.prescription}'; fit the other "
-            "built-in hypotheses (no-response, blumenthal86, gnedin04, gnedin11) or sample "
+            "built-in hypotheses (no-response, blumenthal86, gnedin04, gnedin11, "
+            "gnedin11-scatter) or sample "
             "nu (free-response) before concluding about contraction."
         )
     if lens.uses_kinematics:

@@ -56,3 +56,25 @@ def test_bad_prior_odds_are_refused():
         evidence_table({"a": 0.0}, {"a": 0.1}, prior_odds={"z": 1.0})
     with pytest.raises(ValueError, match="> 0"):
         evidence_table({"a": 0.0}, {"a": 0.1}, prior_odds={"a": 0.0})
+
+
+# --- evidences that are not comparable -------------------------------------------
+
+
+def test_power_law_total_evidence_is_flagged_as_not_comparable():
+    from lensinfer.comparison import comparability_note
+    from lensinfer.comparison.run import _caveats
+    from lensinfer.spec import read_model
+
+    total, nfw, contracted = (read_model(n) for n in ("power-law-total", "no-response", "gnedin04"))
+    note = comparability_note([nfw, total, contracted])
+    assert note is not None and note.startswith("power-law-total:")
+    assert "not a Bayes factor" in note
+    # Only decompositions, or only total-mass models: nothing to warn about.
+    assert comparability_note([nfw, contracted]) is None
+    assert comparability_note([total]) is None
+    # compare() puts the note among the caveats of compare.json / compare.md.
+    result = {"cross_check": {"a": {"agree": True}}}
+    obs = type("Obs", (), {"kinematics": None})()
+    assert note in _caveats(result, obs, [nfw, total])
+    assert note not in _caveats(result, obs, [nfw, contracted])

@@ -50,6 +50,7 @@ EXPECTED_BUILTINS = {
     "free-response": ("decomposition", "power"),
     "gnedin04": ("decomposition", "gnedin04"),
     "gnedin11": ("decomposition", "gnedin11"),
+    "gnedin11-scatter": ("decomposition", "orbit_averaged"),
     "no-response": ("decomposition", "none"),
     "power-law-total": ("total_power_law", None),
 }
